@@ -1,0 +1,112 @@
+//! The JSON API under `/api/v1/`, described by `/api/v1/openapi.json`.
+
+mod calc;
+mod input;
+mod records;
+
+use axum::extract::FromRequest;
+use axum::routing::get;
+use axum::{Json, Router};
+use utoipa::OpenApi;
+
+use crate::error::ApiError;
+use crate::AppState;
+
+pub use calc::run_calc;
+
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/openapi.json", get(|| async { Json(ApiDoc::openapi()) }))
+        .merge(records::router())
+        .merge(calc::router())
+        .fallback(|| async { ApiError(crate::AppError::NotFound("This API route".into())) })
+}
+
+#[derive(OpenApi)]
+#[openapi(
+    info(
+        title = "Glasspoint API",
+        description = "Formulations, materials, measurements, containers and calculations of a freeze-drying development notebook. Derived limits and verdicts support qualified judgement and do not replace experimental confirmation."
+    ),
+    paths(
+        records::list_formulations,
+        records::get_formulation,
+        records::create_formulation,
+        records::update_formulation,
+        records::list_materials,
+        records::get_material,
+        records::create_material,
+        records::update_material,
+        records::list_measurements,
+        records::get_measurement,
+        records::create_measurement,
+        records::update_measurement,
+        records::list_containers,
+        records::get_container,
+        records::create_container,
+        records::update_container,
+        calc::calc,
+    ),
+    components(schemas(
+        input::FormulationInput,
+        input::ComponentInput,
+        input::MaterialInput,
+        input::PropertyInput,
+        input::MeasurementInput,
+        input::ContainerInput,
+        ErrorBody,
+        crate::domain::Formulation,
+        crate::domain::Component,
+        crate::domain::Material,
+        crate::domain::MaterialProperty,
+        crate::domain::Measurement,
+        crate::domain::Container,
+    ))
+)]
+struct ApiDoc;
+
+/// Every API error: what is wrong and, where one is to blame, the field.
+#[derive(serde::Serialize, utoipa::ToSchema)]
+pub struct ErrorBody {
+    pub error: String,
+    pub field: Option<String>,
+}
+
+/// A JSON body whose every complaint (malformed JSON, a missing or mistyped field) answers
+/// 422 with `{error, field}` naming the field.
+pub struct ApiJson<T>(pub T);
+
+impl<S, T> FromRequest<S> for ApiJson<T>
+where
+    S: Send + Sync,
+    T: serde::de::DeserializeOwned,
+{
+    type Rejection = ApiError;
+
+    async fn from_request(req: axum::extract::Request, state: &S) -> Result<Self, Self::Rejection> {
+        let bytes = axum::body::Bytes::from_request(req, state)
+            .await
+            .map_err(|e| {
+                let status = e.status();
+                if status == axum::http::StatusCode::PAYLOAD_TOO_LARGE {
+                    ApiError(crate::AppError::input(
+                        "body",
+                        "the request body is too large",
+                    ))
+                } else {
+                    ApiError(crate::AppError::input(
+                        "body",
+                        "the request body could not be read",
+                    ))
+                }
+            })?;
+        let value: serde_json::Value = serde_json::from_slice(&bytes).map_err(|e| {
+            ApiError(crate::AppError::input(
+                "body",
+                format!("the body is not valid JSON: {e}"),
+            ))
+        })?;
+        let parsed = glasspoint_science::calc::parse_input(value)?;
+        Ok(ApiJson(parsed))
+    }
+}

@@ -1,0 +1,37 @@
+//! Configuration from flags and environment variables, with defaults that need no set-up.
+
+use std::net::SocketAddr;
+
+/// The SQLite file `serve` creates in the working directory when no database is given.
+pub const DEFAULT_SQLITE_FILE: &str = "glasspoint.db";
+pub const DEFAULT_BIND: &str = "127.0.0.1:8080";
+/// Largest request body accepted anywhere, in bytes.
+pub const DEFAULT_BODY_LIMIT: usize = 256 * 1024;
+
+#[derive(Debug, Clone)]
+pub struct Config {
+    pub database_url: String,
+    pub bind: SocketAddr,
+    pub body_limit_bytes: usize,
+    pub request_timeout_s: u64,
+}
+
+impl Config {
+    /// A configuration for `database_url` with every other setting at its default.
+    pub fn for_database(database_url: impl Into<String>) -> Self {
+        Self {
+            database_url: database_url.into(),
+            bind: DEFAULT_BIND.parse().expect("default bind address is valid"),
+            body_limit_bytes: DEFAULT_BODY_LIMIT,
+            request_timeout_s: 30,
+        }
+    }
+}
+
+/// The database URL to use: the flag, else `DATABASE_URL` (clap reads it), else a SQLite
+/// file in the working directory.
+pub fn database_url_or_default(given: Option<String>) -> String {
+    given
+        .filter(|s| !s.trim().is_empty())
+        .unwrap_or_else(|| format!("sqlite://{DEFAULT_SQLITE_FILE}"))
+}

@@ -1,0 +1,10 @@
+//! Domain records and the parsing that turns user input into them. Code outside this module
+//! only ever holds values that passed these checks.
+
+mod enums;
+pub mod fields;
+pub mod records;
+
+pub use enums::*;
+pub use fields::{FieldError, FieldErrors};
+pub use records::*;

@@ -1,0 +1,543 @@
+//! Tg' of a formulation estimated from its composition.
+//!
+//! The freeze-concentrated amorphous phase is taken to hold the components that stay
+//! amorphous, in proportion to their share of the solids; its Tg' is the mixing equation
+//! of [`crate::mixture`] (Fox 1956 by default) applied to each component's own Tg'. This
+//! is an approximation: it ignores differences in the unfrozen water each component holds.
+//!
+//! - Components expected to crystallize are left out and reported.
+//! - Components that *may* crystallize are counted as amorphous — the state that lowers
+//!   Tg' when crystallization is incomplete — and the estimate is flagged, with the value
+//!   it would take if they did crystallize beside it.
+//! - Components without the values the method needs are left out; if they make up more
+//!   than `max_missing_share` of the solids the estimate is refused, otherwise flagged.
+
+use serde::{Deserialize, Serialize};
+
+use crate::error::{finite, positive, InputError};
+use crate::limit::frozen_state_temp_c;
+use crate::mixture::{mixture_tg, MixtureComponent, MixtureMethod};
+
+/// Default share of the solids that may lack values before the estimate is refused.
+pub const DEFAULT_MAX_MISSING_SHARE: f64 = 0.10;
+
+const CAUTION: &str = "An estimate to support qualified judgement; measure Tg' (DSC) or the \
+    collapse onset (freeze-drying microscopy) before it sets a limit.";
+
+/// How a component behaves on freezing.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum FreezingBehaviour {
+    Amorphous,
+    Crystallizes,
+    MayCrystallize,
+}
+
+/// One component of a formulation.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FormulationComponent {
+    #[serde(default)]
+    pub name: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub material_id: Option<i64>,
+    pub concentration_mg_ml: f64,
+    pub behaviour: FreezingBehaviour,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tg_prime_c: Option<f64>,
+    /// Gordon–Taylor weight relative to the first included component (k = 1 if omitted there).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub k: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub delta_cp_j_gk: Option<f64>,
+}
+
+fn default_max_missing_share() -> f64 {
+    DEFAULT_MAX_MISSING_SHARE
+}
+
+/// `formulation-estimate` topic input (inline composition).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct FormulationEstimateInput {
+    pub components: Vec<FormulationComponent>,
+    #[serde(default)]
+    pub method: MixtureMethod,
+    /// Share of the solids (0–1) that may lack values; 0.10 when omitted.
+    #[serde(default = "default_max_missing_share")]
+    pub max_missing_share: f64,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EstimateStatus {
+    Estimated,
+    Flagged,
+    Refused,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct IncludedComponent {
+    pub name: String,
+    pub material_id: Option<i64>,
+    pub behaviour: FreezingBehaviour,
+    pub solid_fraction: f64,
+    /// Share of the amorphous solids used in the estimate.
+    pub amorphous_fraction: f64,
+    pub tg_prime_c: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct ShareOfSolids {
+    pub name: String,
+    pub material_id: Option<i64>,
+    pub solid_fraction: f64,
+}
+
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct MissingValue {
+    pub name: String,
+    pub material_id: Option<i64>,
+    pub solid_fraction: f64,
+    /// The input field the component lacks (`tg_prime_c`, `k` or `delta_cp_j_gk`).
+    pub lacks: String,
+}
+
+/// `formulation-estimate` topic result.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FormulationEstimate {
+    pub estimate_tg_prime_c: Option<f64>,
+    pub status: EstimateStatus,
+    pub method: MixtureMethod,
+    pub solids_mg_ml: f64,
+    pub included: Vec<IncludedComponent>,
+    pub excluded_crystallizing: Vec<ShareOfSolids>,
+    pub missing: Vec<MissingValue>,
+    pub missing_share: f64,
+    /// The estimate if the `may_crystallize` components did crystallize.
+    pub estimate_if_crystallized_c: Option<f64>,
+    pub reasoning: Vec<String>,
+    pub caution: String,
+}
+
+fn name_of(c: &FormulationComponent, i: usize) -> String {
+    if c.name.is_empty() {
+        format!("component {}", i + 1)
+    } else {
+        c.name.clone()
+    }
+}
+
+fn check_component(i: usize, c: &FormulationComponent) -> Result<(), InputError> {
+    let field = |name: &str| format!("components[{i}].{name}");
+    positive(&field("concentration_mg_ml"), c.concentration_mg_ml)?;
+    if let Some(t) = c.tg_prime_c {
+        frozen_state_temp_c(&field("tg_prime_c"), t)?;
+    }
+    if let Some(k) = c.k {
+        positive(&field("k"), k)?;
+    }
+    if let Some(cp) = c.delta_cp_j_gk {
+        positive(&field("delta_cp_j_gk"), cp)?;
+    }
+    Ok(())
+}
+
+/// The field a component lacks for `method`, if any. `is_reference` lets the first
+/// included component go without k under Gordon–Taylor.
+fn lacking(
+    method: MixtureMethod,
+    c: &FormulationComponent,
+    is_reference: bool,
+) -> Option<&'static str> {
+    match (c.tg_prime_c, method) {
+        (None, _) => Some("tg_prime_c"),
+        (_, MixtureMethod::GordonTaylor) if c.k.is_none() && !is_reference => Some("k"),
+        (_, MixtureMethod::CouchmanKarasz) if c.delta_cp_j_gk.is_none() => Some("delta_cp_j_gk"),
+        _ => None,
+    }
+}
+
+/// Mixture Tg' of the included components, weighted by their solid fractions.
+fn mix(method: MixtureMethod, parts: &[(&FormulationComponent, f64)]) -> Result<f64, InputError> {
+    let comps: Vec<MixtureComponent> = parts
+        .iter()
+        .map(|(c, w)| MixtureComponent {
+            name: c.name.clone(),
+            mass_fraction: *w,
+            tg_c: c.tg_prime_c.unwrap_or(f64::NAN),
+            k: c.k,
+            delta_cp_j_gk: c.delta_cp_j_gk,
+        })
+        .collect();
+    Ok(mixture_tg(method, &comps)?.tg_c)
+}
+
+/// The flag sentence for components that may crystallize, and the estimate without them.
+fn if_crystallized(
+    method: MixtureMethod,
+    parts: &[(&FormulationComponent, f64)],
+) -> Result<(String, Option<f64>), InputError> {
+    let stays: Vec<_> = parts
+        .iter()
+        .filter(|(c, _)| c.behaviour == FreezingBehaviour::Amorphous)
+        .cloned()
+        .collect();
+    let mut line = "Components that may crystallize are counted as amorphous, the case that \
+                    depresses Tg' when crystallization is incomplete; the estimate is flagged."
+        .to_string();
+    // Under Gordon–Taylor the dropped component may have been the reference (k = 1);
+    // recompute only when the rest still carry k.
+    let recompute = !stays.is_empty()
+        && (method != MixtureMethod::GordonTaylor
+            || stays.iter().skip(1).all(|(c, _)| c.k.is_some()));
+    if !recompute {
+        return Ok((line, None));
+    }
+    let alt = mix(method, &stays)?;
+    line.push_str(&format!(
+        " If they crystallize fully, the estimate is {alt:.1} °C."
+    ));
+    Ok((line, Some(alt)))
+}
+
+/// Estimated Tg' of a formulation from its composition (module docs for the rules).
+/// Refusal for lack of data is a result (`status: refused`); invalid input is an error.
+pub fn formulation_estimate(
+    input: &FormulationEstimateInput,
+) -> Result<FormulationEstimate, InputError> {
+    let method = input.method;
+    if input.components.is_empty() {
+        return Err(InputError::new("components", "give at least one component"));
+    }
+    for (i, c) in input.components.iter().enumerate() {
+        check_component(i, c)?;
+    }
+    let max_missing = finite("max_missing_share", input.max_missing_share)?;
+    if !(0.0..=1.0).contains(&max_missing) {
+        return Err(InputError::new(
+            "max_missing_share",
+            "must lie between 0 and 1",
+        ));
+    }
+    let solids: f64 = input.components.iter().map(|c| c.concentration_mg_ml).sum();
+    if !solids.is_finite() {
+        return Err(InputError::new(
+            "components",
+            "the concentrations are too large to add",
+        ));
+    }
+    let mut reasoning = vec![format!("The solids total {solids:.3} mg/mL.")];
+    let (mut used, mut excluded, mut missing) = (Vec::new(), Vec::new(), Vec::new());
+    for (i, c) in input.components.iter().enumerate() {
+        let share = c.concentration_mg_ml / solids;
+        let name = name_of(c, i);
+        if c.behaviour == FreezingBehaviour::Crystallizes {
+            reasoning.push(format!(
+                "{name} ({:.1} % of solids) is expected to crystallize and is left out of the \
+                 amorphous phase; its eutectic, not a Tg', describes it.",
+                share * 100.0
+            ));
+            excluded.push(ShareOfSolids {
+                name,
+                material_id: c.material_id,
+                solid_fraction: share,
+            });
+        } else if let Some(lacks) = lacking(method, c, used.is_empty()) {
+            reasoning.push(format!(
+                "{name} ({:.1} % of solids) has no {lacks} value and is left out.",
+                share * 100.0
+            ));
+            missing.push(MissingValue {
+                name,
+                material_id: c.material_id,
+                solid_fraction: share,
+                lacks: lacks.into(),
+            });
+        } else {
+            used.push((c, share, name));
+        }
+    }
+    let missing_share: f64 = missing.iter().map(|m| m.solid_fraction).sum();
+    let amorphous_share: f64 = used.iter().map(|(_, s, _)| s).sum();
+    let mut result = FormulationEstimate {
+        estimate_tg_prime_c: None,
+        status: EstimateStatus::Refused,
+        method,
+        solids_mg_ml: solids,
+        included: used
+            .iter()
+            .map(|(c, share, name)| IncludedComponent {
+                name: name.clone(),
+                material_id: c.material_id,
+                behaviour: c.behaviour,
+                solid_fraction: *share,
+                amorphous_fraction: share / amorphous_share,
+                tg_prime_c: c.tg_prime_c.unwrap_or(f64::NAN),
+            })
+            .collect(),
+        excluded_crystallizing: excluded,
+        missing,
+        missing_share,
+        estimate_if_crystallized_c: None,
+        reasoning,
+        caution: CAUTION.into(),
+    };
+    if used.is_empty() {
+        result.reasoning.push(if result.missing.is_empty() {
+            "Every component is expected to crystallize: there is no amorphous phase to \
+             estimate a Tg' for, and the eutectic of the crystallized phase governs."
+                .into()
+        } else {
+            "No amorphous component has the values needed, so no estimate is given.".into()
+        });
+        return Ok(result);
+    }
+    if missing_share > max_missing {
+        result.reasoning.push(format!(
+            "Components without values make up {:.1} % of the solids, more than the {:.1} % \
+             allowed, so no estimate is given.",
+            missing_share * 100.0,
+            max_missing * 100.0
+        ));
+        return Ok(result);
+    }
+    let parts: Vec<_> = used.iter().map(|(c, s, _)| (*c, *s)).collect();
+    let estimate = mix(method, &parts)?;
+    result.reasoning.push(format!(
+        "{} over the Tg' of the {} amorphous component(s), weighted by their share of the \
+         amorphous solids, gives {estimate:.1} °C.",
+        method.equation(),
+        parts.len()
+    ));
+    let mut flagged = missing_share > 0.0;
+    if flagged {
+        result.reasoning.push(format!(
+            "The estimate is flagged: {:.1} % of the solids lack values (up to {:.1} % allowed).",
+            missing_share * 100.0,
+            max_missing * 100.0
+        ));
+    }
+    if parts
+        .iter()
+        .any(|(c, _)| c.behaviour == FreezingBehaviour::MayCrystallize)
+    {
+        flagged = true;
+        let (line, alt) = if_crystallized(method, &parts)?;
+        result.reasoning.push(line);
+        result.estimate_if_crystallized_c = alt;
+    }
+    result.estimate_tg_prime_c = Some(estimate);
+    result.status = if flagged {
+        EstimateStatus::Flagged
+    } else {
+        EstimateStatus::Estimated
+    };
+    result.reasoning.push(
+        "Each component's own Tg' stands in for its end member, which ignores differences in \
+         the unfrozen water each holds."
+            .into(),
+    );
+    Ok(result)
+}
+
+/// `formulation-estimate` topic (inline composition; the app resolves `formulation_id`).
+pub fn calc_formulation_estimate(
+    input: serde_json::Value,
+) -> Result<serde_json::Value, InputError> {
+    let req: FormulationEstimateInput = crate::calc::parse_input(input)?;
+    crate::calc::to_output(&formulation_estimate(&req)?)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_relative_eq;
+    use serde_json::json;
+
+    fn part(
+        name: &str,
+        mg_ml: f64,
+        behaviour: FreezingBehaviour,
+        tg: Option<f64>,
+    ) -> FormulationComponent {
+        FormulationComponent {
+            name: name.into(),
+            material_id: None,
+            concentration_mg_ml: mg_ml,
+            behaviour,
+            tg_prime_c: tg,
+            k: None,
+            delta_cp_j_gk: None,
+        }
+    }
+
+    fn estimate_with(
+        components: Vec<FormulationComponent>,
+        method: MixtureMethod,
+        max_missing_share: f64,
+    ) -> Result<FormulationEstimate, InputError> {
+        formulation_estimate(&FormulationEstimateInput {
+            components,
+            method,
+            max_missing_share,
+        })
+    }
+
+    fn estimate(components: Vec<FormulationComponent>) -> FormulationEstimate {
+        estimate_with(components, MixtureMethod::Fox, DEFAULT_MAX_MISSING_SHARE).unwrap()
+    }
+
+    use FreezingBehaviour::{Amorphous, Crystallizes, MayCrystallize};
+
+    #[test]
+    fn a_single_excipient_reproduces_its_own_tg_prime() {
+        // Sucrose Tg' −32 °C (references.md, from memory).
+        let r = estimate(vec![part("sucrose", 50.0, Amorphous, Some(-32.0))]);
+        assert_eq!(r.status, EstimateStatus::Estimated);
+        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
+        assert_relative_eq!(r.solids_mg_ml, 50.0);
+    }
+
+    #[test]
+    fn sucrose_with_trehalose_lies_between_their_tg_primes() {
+        // Tg' sucrose −32 °C, trehalose −29.5 °C (references.md, from memory).
+        let r = estimate(vec![
+            part("sucrose", 30.0, Amorphous, Some(-32.0)),
+            part("trehalose", 20.0, Amorphous, Some(-29.5)),
+        ]);
+        let t = r.estimate_tg_prime_c.unwrap();
+        assert!(t > -32.0 && t < -29.5, "{t}");
+        assert_relative_eq!(r.included[1].amorphous_fraction, 0.4, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn a_crystallizing_bulking_agent_is_left_out_and_reported() {
+        // Mannitol crystallizes (references.md); sucrose Tg' −32 °C.
+        let r = estimate(vec![
+            part("mannitol", 40.0, Crystallizes, Some(-33.0)),
+            part("sucrose", 10.0, Amorphous, Some(-32.0)),
+        ]);
+        assert_eq!(r.status, EstimateStatus::Estimated);
+        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
+        assert_relative_eq!(
+            r.excluded_crystallizing[0].solid_fraction,
+            0.8,
+            max_relative = 1e-12
+        );
+        assert_relative_eq!(r.included[0].solid_fraction, 0.2, max_relative = 1e-12);
+        assert_relative_eq!(r.included[0].amorphous_fraction, 1.0, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn a_component_that_may_crystallize_is_counted_and_flagged() {
+        // Glycine amorphous Tg' ≈ −37 to −40 °C; sucrose −32 °C (references.md, from memory).
+        let r = estimate(vec![
+            part("sucrose", 40.0, Amorphous, Some(-32.0)),
+            part("glycine", 10.0, MayCrystallize, Some(-38.0)),
+        ]);
+        assert_eq!(r.status, EstimateStatus::Flagged);
+        assert!(r.estimate_tg_prime_c.unwrap() < -32.0);
+        assert_relative_eq!(
+            r.estimate_if_crystallized_c.unwrap(),
+            -32.0,
+            max_relative = 1e-12
+        );
+        assert!(r.reasoning.iter().any(|l| l.contains("may crystallize")));
+    }
+
+    #[test]
+    fn a_small_missing_share_flags_the_estimate() {
+        let r = estimate(vec![
+            part("sucrose", 50.0, Amorphous, Some(-32.0)),
+            part("polysorbate 80", 0.2, Amorphous, None),
+        ]);
+        assert_eq!(r.status, EstimateStatus::Flagged);
+        assert_eq!(r.missing[0].lacks, "tg_prime_c");
+        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn a_large_missing_share_refuses_the_estimate() {
+        let r = estimate(vec![
+            part("sucrose", 50.0, Amorphous, Some(-32.0)),
+            part("unknown polymer", 10.0, Amorphous, None),
+        ]);
+        assert_eq!(r.status, EstimateStatus::Refused);
+        assert!(r.estimate_tg_prime_c.is_none());
+        assert!(r.reasoning.iter().any(|l| l.contains("more than")));
+    }
+
+    #[test]
+    fn an_all_crystalline_formulation_has_no_tg_prime_estimate() {
+        let r = estimate(vec![part("mannitol", 50.0, Crystallizes, None)]);
+        assert_eq!(r.status, EstimateStatus::Refused);
+        assert!(r.reasoning.iter().any(|l| l.contains("eutectic")));
+    }
+
+    #[test]
+    fn gordon_taylor_lets_the_first_included_component_go_without_k() {
+        let mut trehalose = part("trehalose", 25.0, Amorphous, Some(-29.5));
+        trehalose.k = Some(1.0);
+        let sucrose = part("sucrose", 25.0, Amorphous, Some(-32.0));
+        let gt = MixtureMethod::GordonTaylor;
+        let r = estimate_with(vec![sucrose.clone(), trehalose.clone()], gt, 0.0).unwrap();
+        // Equal weights and fractions: the arithmetic mean (hand calculation).
+        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -30.75, max_relative = 1e-12);
+        trehalose.k = None;
+        let r = estimate_with(vec![sucrose, trehalose], gt, 0.6).unwrap();
+        assert_eq!(r.missing[0].lacks, "k");
+        assert_eq!(r.status, EstimateStatus::Flagged);
+    }
+
+    #[test]
+    fn bad_compositions_are_refused_with_their_field_named() {
+        let c = |conc: f64, tg: f64| json!({"concentration_mg_ml": conc, "behaviour": "amorphous", "tg_prime_c": tg});
+        let mut bad_k = c(10.0, -32.0);
+        bad_k["k"] = json!(0.0);
+        let one = |c| json!({ "components": [c] });
+        let cases = [
+            (json!({"components": []}), "components"),
+            (one(c(0.0, -32.0)), "components[0].concentration_mg_ml"),
+            (
+                json!({"components": [c(1.0, -32.0), c(-1.0, -32.0)]}),
+                "components[1].concentration_mg_ml",
+            ),
+            (one(c(10.0, 62.0)), "components[0].tg_prime_c"),
+            (one(c(10.0, -300.0)), "components[0].tg_prime_c"),
+            (
+                one(json!({"concentration_mg_ml": 1.0, "behaviour": "melts"})),
+                "components[0].behaviour",
+            ),
+            (one(bad_k), "components[0].k"),
+            (
+                json!({"components": [c(1.0, -32.0)], "max_missing_share": 1.5}),
+                "max_missing_share",
+            ),
+        ];
+        for (input, field) in cases {
+            assert_eq!(calc_formulation_estimate(input).unwrap_err().field, field);
+        }
+        // JSON cannot carry NaN or infinity: the typed function is checked directly.
+        let typed = |conc: f64, tg: f64| {
+            let components = vec![part("s", conc, Amorphous, Some(tg))];
+            estimate_with(components, MixtureMethod::Fox, 0.1)
+                .unwrap_err()
+                .field
+        };
+        assert_eq!(typed(f64::NAN, -32.0), "components[0].concentration_mg_ml");
+        assert_eq!(typed(1.0, f64::INFINITY), "components[0].tg_prime_c");
+    }
+
+    #[test]
+    fn the_json_topic_defaults_to_fox_and_a_ten_percent_missing_share() {
+        let out = calc_formulation_estimate(json!({"components": [
+            {"name": "sucrose", "material_id": 7, "concentration_mg_ml": 50.0, "behaviour": "amorphous", "tg_prime_c": -32.0},
+            {"name": "polysorbate 80", "concentration_mg_ml": 5.0, "behaviour": "amorphous"}
+        ]}))
+        .unwrap();
+        assert_eq!(out["method"], "fox");
+        assert_eq!(out["status"], "flagged");
+        assert_eq!(out["included"][0]["material_id"], 7);
+    }
+}

@@ -1,0 +1,207 @@
+//! Measurement queries.
+
+use sqlx::FromRow;
+use time::{Date, OffsetDateTime};
+
+use super::materials::stale_or_missing;
+use super::{decode, now, on_pool, Store};
+use crate::domain::*;
+use crate::error::AppError;
+
+#[derive(FromRow)]
+struct MeasurementRow {
+    id: i64,
+    formulation_id: i64,
+    kind: String,
+    value_c: f64,
+    residual_moisture_pct: Option<f64>,
+    method: String,
+    heating_rate_c_min: Option<f64>,
+    sample_mass_mg: Option<f64>,
+    pan: String,
+    instrument: String,
+    analyst: String,
+    measured_on: Date,
+    replicate: i64,
+    notes: String,
+    review_state: String,
+    version: i64,
+    created_at: OffsetDateTime,
+}
+
+const SELECT: &str = "SELECT id, formulation_id, kind, value_c, residual_moisture_pct, method, heating_rate_c_min, \
+     sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at \
+     FROM measurements";
+
+fn to_measurement(r: MeasurementRow) -> Result<Measurement, AppError> {
+    Ok(Measurement {
+        id: r.id,
+        formulation_id: r.formulation_id,
+        kind: decode(MeasurementKind::parse(&r.kind), "measurement kind", &r.kind)?,
+        value_c: r.value_c,
+        residual_moisture_pct: r.residual_moisture_pct,
+        method: decode(MeasurementMethod::parse(&r.method), "method", &r.method)?,
+        heating_rate_c_min: r.heating_rate_c_min,
+        sample_mass_mg: r.sample_mass_mg,
+        pan: r.pan,
+        instrument: r.instrument,
+        analyst: r.analyst,
+        measured_on: r.measured_on,
+        replicate: r.replicate,
+        notes: r.notes,
+        review_state: decode(
+            ReviewState::parse(&r.review_state),
+            "review state",
+            &r.review_state,
+        )?,
+        version: r.version,
+        created_at: r.created_at,
+    })
+}
+
+impl Store {
+    /// A formulation's measurements, grouped by kind, then by date and replicate.
+    pub async fn measurements_of(&self, formulation_id: i64) -> Result<Vec<Measurement>, AppError> {
+        let rows: Vec<MeasurementRow> = on_pool!(self, pool => {
+            sqlx::query_as(&format!(
+                "{SELECT} WHERE formulation_id = $1 ORDER BY kind, measured_on, replicate, id"
+            ))
+            .bind(formulation_id)
+            .fetch_all(pool)
+            .await?
+        });
+        rows.into_iter().map(to_measurement).collect()
+    }
+
+    /// Measurements across formulations, newest first, optionally of one formulation.
+    pub async fn list_measurements(
+        &self,
+        formulation_id: Option<i64>,
+        page: i64,
+        per_page: i64,
+    ) -> Result<super::Page<Measurement>, AppError> {
+        let per_page = per_page.clamp(1, 500);
+        let fid = formulation_id.unwrap_or(0);
+        let (total,): (i64,) = on_pool!(self, pool => {
+            sqlx::query_as("SELECT COUNT(*) FROM measurements WHERE ($1 = 0 OR formulation_id = $1)")
+                .bind(fid)
+                .fetch_one(pool)
+                .await?
+        });
+        let pages = ((total + per_page - 1) / per_page).max(1);
+        let page = page.clamp(1, pages);
+        let rows: Vec<MeasurementRow> = on_pool!(self, pool => {
+            sqlx::query_as(&format!(
+                "{SELECT} WHERE ($1 = 0 OR formulation_id = $1) ORDER BY measured_on DESC, id DESC LIMIT $2 OFFSET $3"
+            ))
+            .bind(fid)
+            .bind(per_page)
+            .bind((page - 1) * per_page)
+            .fetch_all(pool)
+            .await?
+        });
+        let items = rows
+            .into_iter()
+            .map(to_measurement)
+            .collect::<Result<_, _>>()?;
+        Ok(super::Page {
+            items,
+            page,
+            per_page,
+            total,
+            pages,
+        })
+    }
+
+    pub async fn get_measurement(&self, id: i64) -> Result<Measurement, AppError> {
+        let row: Option<MeasurementRow> = on_pool!(self, pool => {
+            sqlx::query_as(&format!("{SELECT} WHERE id = $1"))
+                .bind(id)
+                .fetch_optional(pool)
+                .await?
+        });
+        to_measurement(row.ok_or_else(|| AppError::NotFound(format!("Measurement {id}")))?)
+    }
+
+    pub async fn create_measurement(
+        &self,
+        formulation_id: i64,
+        d: &MeasurementDraft,
+    ) -> Result<i64, AppError> {
+        let at = now();
+        on_pool!(self, pool => {
+            let mut tx = pool.begin().await?;
+            let (n,): (i64,) = sqlx::query_as("SELECT COUNT(*) FROM formulations WHERE id = $1")
+                .bind(formulation_id)
+                .fetch_one(&mut *tx)
+                .await?;
+            if n == 0 {
+                return Err(AppError::NotFound(format!("Formulation {formulation_id}")));
+            }
+            let (id,): (i64,) = sqlx::query_as(
+                "INSERT INTO measurements (formulation_id, kind, value_c, residual_moisture_pct, method, heating_rate_c_min, \
+                 sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at, updated_at) \
+                 VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, 1, $15, $15) RETURNING id",
+            )
+            .bind(formulation_id)
+            .bind(d.kind.code())
+            .bind(d.value_c)
+            .bind(d.residual_moisture_pct)
+            .bind(d.method.code())
+            .bind(d.heating_rate_c_min)
+            .bind(d.sample_mass_mg)
+            .bind(&d.pan)
+            .bind(&d.instrument)
+            .bind(&d.analyst)
+            .bind(d.measured_on)
+            .bind(d.replicate)
+            .bind(&d.notes)
+            .bind(d.review_state.code())
+            .bind(at)
+            .fetch_one(&mut *tx)
+            .await?;
+            tx.commit().await?;
+            Ok(id)
+        })
+    }
+
+    pub async fn update_measurement(
+        &self,
+        id: i64,
+        version: i64,
+        d: &MeasurementDraft,
+    ) -> Result<(), AppError> {
+        let at = now();
+        let done = on_pool!(self, pool => {
+            sqlx::query(
+                "UPDATE measurements SET kind = $1, value_c = $2, residual_moisture_pct = $3, method = $4, \
+                 heating_rate_c_min = $5, sample_mass_mg = $6, pan = $7, instrument = $8, analyst = $9, measured_on = $10, \
+                 replicate = $11, notes = $12, review_state = $13, version = version + 1, updated_at = $14 \
+                 WHERE id = $15 AND version = $16",
+            )
+            .bind(d.kind.code())
+            .bind(d.value_c)
+            .bind(d.residual_moisture_pct)
+            .bind(d.method.code())
+            .bind(d.heating_rate_c_min)
+            .bind(d.sample_mass_mg)
+            .bind(&d.pan)
+            .bind(&d.instrument)
+            .bind(&d.analyst)
+            .bind(d.measured_on)
+            .bind(d.replicate)
+            .bind(&d.notes)
+            .bind(d.review_state.code())
+            .bind(at)
+            .bind(id)
+            .bind(version)
+            .execute(pool)
+            .await?
+            .rows_affected()
+        });
+        if done == 0 {
+            return Err(stale_or_missing(self, "Measurement", id).await);
+        }
+        Ok(())
+    }
+}

@@ -1,0 +1,417 @@
+//! Formulation pages: list with search and filters, detail, create, edit, archive.
+
+use askama::Template;
+use axum::extract::{Path, Query, State};
+use axum::response::Response;
+use axum::routing::{get, post};
+use axum::{Form, Router};
+use serde::Deserialize;
+
+use super::{options, parse_version, render, see_other};
+use crate::domain::*;
+use crate::storage::{FormulationFilter, FormulationSort, FormulationSummary, Page};
+use crate::{AppError, AppState};
+
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/formulations", get(list).post(create))
+        .route("/formulations/new", get(new_form))
+        .route("/formulations/{id}", get(detail).post(update))
+        .route("/formulations/{id}/edit", get(edit_form))
+        .route("/formulations/{id}/archive", post(archive))
+        .route("/formulations/{id}/restore", post(restore))
+}
+
+pub const PER_PAGE: i64 = 25;
+
+#[derive(Debug, Default, Deserialize)]
+pub struct ListQuery {
+    #[serde(default)]
+    pub q: String,
+    #[serde(default)]
+    pub project: String,
+    #[serde(default)]
+    pub status: String,
+    #[serde(default)]
+    pub has_tg_prime: String,
+    #[serde(default)]
+    pub has_collapse: String,
+    #[serde(default)]
+    pub sort: String,
+    #[serde(default)]
+    pub page: String,
+}
+
+impl ListQuery {
+    /// The filter this query asks for; unknown values fall back to "no filter".
+    pub fn filter(&self) -> FormulationFilter {
+        FormulationFilter {
+            query: self.q.trim().chars().take(100).collect(),
+            project: self.project.trim().to_string(),
+            status: FormulationStatus::parse(&self.status),
+            has_tg_prime: !self.has_tg_prime.is_empty(),
+            has_collapse: !self.has_collapse.is_empty(),
+        }
+    }
+
+    pub fn sort(&self) -> FormulationSort {
+        FormulationSort::parse(&self.sort).unwrap_or_default()
+    }
+
+    pub fn page(&self) -> i64 {
+        self.page.trim().parse().unwrap_or(1).max(1)
+    }
+
+    fn link_to(&self, page: i64) -> String {
+        let pairs = [
+            ("q", self.q.as_str()),
+            ("project", self.project.as_str()),
+            ("status", self.status.as_str()),
+            ("has_tg_prime", self.has_tg_prime.as_str()),
+            ("has_collapse", self.has_collapse.as_str()),
+            ("sort", self.sort.as_str()),
+        ];
+        let mut query: Vec<(&str, String)> = pairs
+            .iter()
+            .filter(|(_, v)| !v.is_empty())
+            .map(|(k, v)| (*k, v.to_string()))
+            .collect();
+        query.push(("page", page.to_string()));
+        format!(
+            "/formulations?{}",
+            serde_urlencoded::to_string(&query).unwrap_or_default()
+        )
+    }
+}
+
+#[derive(Template)]
+#[template(path = "formulations/list.html")]
+struct ListPage {
+    page: Page<FormulationSummary>,
+    q: String,
+    project: String,
+    status: String,
+    sort: String,
+    has_tg_prime: bool,
+    has_collapse: bool,
+    projects: Vec<String>,
+    statuses: Vec<(&'static str, &'static str)>,
+    sorts: Vec<(&'static str, &'static str)>,
+    prev_link: String,
+    next_link: String,
+}
+
+async fn list(
+    State(state): State<AppState>,
+    Query(q): Query<ListQuery>,
+) -> Result<Response, AppError> {
+    let filter = q.filter();
+    let sort = q.sort();
+    let page = state
+        .store
+        .search_formulations(&filter, sort, q.page(), PER_PAGE)
+        .await?;
+    let projects = state.store.list_projects().await?;
+    Ok(render(ListPage {
+        prev_link: q.link_to(page.page - 1),
+        next_link: q.link_to(page.page + 1),
+        page,
+        q: filter.query.clone(),
+        project: filter.project.clone(),
+        status: filter
+            .status
+            .map(|s| s.code().to_string())
+            .unwrap_or_default(),
+        sort: sort.code().to_string(),
+        has_tg_prime: filter.has_tg_prime,
+        has_collapse: filter.has_collapse,
+        projects,
+        statuses: options(
+            FormulationStatus::ALL,
+            FormulationStatus::code,
+            FormulationStatus::label,
+        ),
+        sorts: FormulationSort::ALL
+            .iter()
+            .map(|(_, c, l)| (*c, *l))
+            .collect(),
+    }))
+}
+
+/// A composition row as the form shows it, with its errors.
+pub struct RowView {
+    pub material_id: String,
+    pub concentration: String,
+    pub unit: String,
+    pub material_error: String,
+    pub concentration_error: String,
+    pub unit_error: String,
+}
+
+#[derive(Template)]
+#[template(path = "formulations/form.html")]
+struct FormPage {
+    heading: String,
+    action: String,
+    cancel: String,
+    form: FormulationForm,
+    rows: Vec<RowView>,
+    errors: FieldErrors,
+    statuses: Vec<(&'static str, &'static str)>,
+    units: Vec<&'static str>,
+    materials: Vec<(String, String)>,
+    containers: Vec<(String, String)>,
+}
+
+async fn form_page(
+    state: &AppState,
+    heading: String,
+    action: String,
+    cancel: String,
+    form: FormulationForm,
+    errors: FieldErrors,
+) -> Result<Response, AppError> {
+    let materials = state
+        .store
+        .list_materials()
+        .await?
+        .into_iter()
+        .map(|m| (m.id.to_string(), m.name))
+        .collect();
+    let containers = state
+        .store
+        .list_containers()
+        .await?
+        .into_iter()
+        .map(|c| (c.id.to_string(), c.name))
+        .collect();
+    // Filled rows are numbered from 0 (see `compact`), so errors line up by index.
+    let mut rows: Vec<RowView> = form
+        .components
+        .iter()
+        .filter(|r| !r.is_blank())
+        .enumerate()
+        .map(|(i, r)| row_view(r, i, &errors))
+        .collect();
+    let wanted = (rows.len() + 3).min(MAX_COMPONENTS);
+    while rows.len() < wanted {
+        rows.push(row_view(&ComponentRow::default(), usize::MAX, &errors));
+    }
+    let status = FormulationStatus::ALL
+        .iter()
+        .filter(|s| **s != FormulationStatus::Archived || form.status == "archived")
+        .map(|s| (s.code(), s.label()))
+        .collect();
+    Ok(render(FormPage {
+        heading,
+        action,
+        cancel,
+        form,
+        rows,
+        errors,
+        statuses: status,
+        units: ConcentrationUnit::ALL.iter().map(|u| u.code()).collect(),
+        materials,
+        containers,
+    }))
+}
+
+fn row_view(r: &ComponentRow, index: usize, errors: &FieldErrors) -> RowView {
+    let err = |suffix: &str| errors.msg(&format!("c{index}_{suffix}")).to_string();
+    RowView {
+        material_id: r.material_id.clone(),
+        concentration: r.concentration.clone(),
+        unit: r.unit.clone(),
+        material_error: err("material"),
+        concentration_error: err("concentration"),
+        unit_error: err("unit"),
+    }
+}
+
+/// Renumbers the non-blank rows from 0 so that the re-rendered form, which posts rows by
+/// position, keeps each error next to its own row.
+fn compact(form: &mut FormulationForm, errors: &mut FieldErrors) {
+    let mut renamed = FieldErrors::default();
+    let mut next = 0;
+    let mut map = Vec::new();
+    for (i, row) in form.components.iter().enumerate() {
+        if !row.is_blank() {
+            map.push((i, next));
+            next += 1;
+        }
+    }
+    for (field, message) in errors.iter() {
+        let moved = map.iter().find_map(|(from, to)| {
+            field
+                .strip_prefix(&format!("c{from}_"))
+                .map(|rest| format!("c{to}_{rest}"))
+        });
+        renamed.add(moved.unwrap_or_else(|| field.clone()), message.clone());
+    }
+    form.components.retain(|r| !r.is_blank());
+    *errors = renamed;
+}
+
+async fn new_form(State(state): State<AppState>) -> Result<Response, AppError> {
+    let form = FormulationForm {
+        status: "draft".into(),
+        ..Default::default()
+    };
+    form_page(
+        &state,
+        "New formulation".into(),
+        "/formulations".into(),
+        "/formulations".into(),
+        form,
+        FieldErrors::default(),
+    )
+    .await
+}
+
+async fn create(
+    State(state): State<AppState>,
+    Form(pairs): Form<Vec<(String, String)>>,
+) -> Result<Response, AppError> {
+    let mut form = FormulationForm::from_pairs(&pairs);
+    let result = match form.parse() {
+        Ok(draft) => state.store.create_formulation(&draft).await,
+        Err(errors) => Err(AppError::Fields(errors)),
+    };
+    match result {
+        Ok(id) => Ok(see_other(&format!("/formulations/{id}"))),
+        Err(e) => {
+            let mut errors = into_field_errors(e)?;
+            compact(&mut form, &mut errors);
+            form_page(
+                &state,
+                "New formulation".into(),
+                "/formulations".into(),
+                "/formulations".into(),
+                form,
+                errors,
+            )
+            .await
+            .map(unprocessable)
+        }
+    }
+}
+
+/// Field errors re-render the form; anything else is a real failure.
+pub fn into_field_errors(e: AppError) -> Result<FieldErrors, AppError> {
+    match e {
+        AppError::Fields(errors) => Ok(errors),
+        AppError::Input(one) => Ok(one.into()),
+        AppError::Conflict(message) => Ok(FieldError::new("version", message).into()),
+        other => Err(other),
+    }
+}
+
+/// A re-rendered form answers 422 so scripts and tests can tell it from a success.
+pub fn unprocessable(mut r: Response) -> Response {
+    *r.status_mut() = axum::http::StatusCode::UNPROCESSABLE_ENTITY;
+    r
+}
+
+#[derive(Template)]
+#[template(path = "formulations/detail.html")]
+struct DetailPage {
+    f: Formulation,
+    updated: String,
+    summaries: Vec<ReplicateSummary>,
+    groups: Vec<(MeasurementKind, Vec<Measurement>)>,
+}
+
+async fn detail(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+    let f = state.store.get_formulation(id).await?;
+    let measurements = state.store.measurements_of(id).await?;
+    let summaries = summarise(&measurements);
+    let groups = MeasurementKind::ALL
+        .iter()
+        .map(|k| {
+            (
+                *k,
+                measurements
+                    .iter()
+                    .filter(|m| m.kind == *k)
+                    .cloned()
+                    .collect::<Vec<_>>(),
+            )
+        })
+        .filter(|(_, ms)| !ms.is_empty())
+        .collect();
+    let updated = f
+        .updated_at
+        .format(&time::macros::format_description!(
+            "[year]-[month]-[day] [hour]:[minute] UTC"
+        ))
+        .unwrap_or_default();
+    Ok(render(DetailPage {
+        f,
+        updated,
+        summaries,
+        groups,
+    }))
+}
+
+async fn edit_form(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
+    let f = state.store.get_formulation(id).await?;
+    form_page(
+        &state,
+        format!("Edit {}", f.code),
+        format!("/formulations/{id}"),
+        format!("/formulations/{id}"),
+        FormulationForm::from_formulation(&f),
+        FieldErrors::default(),
+    )
+    .await
+}
+
+async fn update(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    Form(pairs): Form<Vec<(String, String)>>,
+) -> Result<Response, AppError> {
+    let mut form = FormulationForm::from_pairs(&pairs);
+    let result = match (form.parse(), parse_version(&form.version)) {
+        (Ok(draft), Ok(version)) => state.store.update_formulation(id, version, &draft).await,
+        (Err(errors), _) => Err(AppError::Fields(errors)),
+        (_, Err(e)) => Err(e),
+    };
+    match result {
+        Ok(()) => Ok(see_other(&format!("/formulations/{id}"))),
+        Err(AppError::NotFound(what)) => Err(AppError::NotFound(what)),
+        Err(e) => {
+            let mut errors = into_field_errors(e)?;
+            compact(&mut form, &mut errors);
+            form_page(
+                &state,
+                "Edit formulation".into(),
+                format!("/formulations/{id}"),
+                format!("/formulations/{id}"),
+                form,
+                errors,
+            )
+            .await
+            .map(unprocessable)
+        }
+    }
+}
+
+async fn archive(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+    state
+        .store
+        .set_formulation_status(id, FormulationStatus::Archived)
+        .await?;
+    Ok(see_other(&format!("/formulations/{id}")))
+}
+
+async fn restore(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+    state
+        .store
+        .set_formulation_status(id, FormulationStatus::Draft)
+        .await?;
+    Ok(see_other(&format!("/formulations/{id}")))
+}

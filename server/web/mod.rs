@@ -1,0 +1,149 @@
+//! Server-rendered pages. Handlers are thin: extract, parse into domain types, call the
+//! store or the science, render.
+
+mod containers;
+pub mod fmt;
+mod formulations;
+pub use formulations::ListQuery as FormulationListQuery;
+mod materials;
+mod measurements;
+
+use std::time::Duration;
+
+use askama::Template;
+use axum::body::Body;
+use axum::extract::{Path, State};
+use axum::http::{header, HeaderValue, StatusCode};
+use axum::response::{Html, IntoResponse, Redirect, Response};
+use axum::routing::get;
+use axum::Router;
+use tower_http::catch_panic::CatchPanicLayer;
+use tower_http::limit::RequestBodyLimitLayer;
+use tower_http::set_header::SetResponseHeaderLayer;
+use tower_http::timeout::TimeoutLayer;
+use tower_http::trace::TraceLayer;
+
+use crate::{AppError, AppState, Config};
+
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/", get(|| async { Redirect::to("/formulations") }))
+        .route("/healthz", get(healthz))
+        .route("/static/{*path}", get(static_file))
+        .merge(formulations::router())
+        .merge(measurements::router())
+        .merge(materials::router())
+        .merge(containers::router())
+        .fallback(|| async { AppError::NotFound("This page".into()) })
+}
+
+/// Request limits, security headers, tracing and panic containment for the whole app.
+pub fn middleware(app: Router, config: &Config) -> Router {
+    app.layer(RequestBodyLimitLayer::new(config.body_limit_bytes))
+        .layer(axum::extract::DefaultBodyLimit::max(config.body_limit_bytes))
+        .layer(TimeoutLayer::with_status_code(
+            StatusCode::REQUEST_TIMEOUT,
+            Duration::from_secs(config.request_timeout_s),
+        ))
+        .layer(SetResponseHeaderLayer::if_not_present(
+            header::CONTENT_SECURITY_POLICY,
+            HeaderValue::from_static("default-src 'self'; img-src 'self' data:; style-src 'self'; frame-ancestors 'none'"),
+        ))
+        .layer(SetResponseHeaderLayer::if_not_present(
+            header::X_CONTENT_TYPE_OPTIONS,
+            HeaderValue::from_static("nosniff"),
+        ))
+        .layer(TraceLayer::new_for_http())
+        .layer(CatchPanicLayer::custom(|_| {
+            tracing::error!("a request handler panicked");
+            error_page(
+                StatusCode::INTERNAL_SERVER_ERROR,
+                "Something went wrong on our side. The details were logged.",
+            )
+        }))
+}
+
+async fn healthz(State(state): State<AppState>) -> Response {
+    match state.store.ping().await {
+        Ok(()) => (StatusCode::OK, "ok").into_response(),
+        Err(e) => {
+            tracing::error!(error = %e, "health check failed");
+            (StatusCode::SERVICE_UNAVAILABLE, "database unavailable").into_response()
+        }
+    }
+}
+
+#[derive(rust_embed::RustEmbed)]
+#[folder = "static/"]
+struct StaticFiles;
+
+async fn static_file(Path(path): Path<String>) -> Response {
+    match StaticFiles::get(&path) {
+        Some(file) => {
+            let mime = mime_guess::from_path(&path).first_or_octet_stream();
+            (
+                [
+                    (header::CONTENT_TYPE, mime.as_ref().to_string()),
+                    (header::CACHE_CONTROL, "public, max-age=3600".to_string()),
+                ],
+                Body::from(file.data.into_owned()),
+            )
+                .into_response()
+        }
+        None => AppError::NotFound("This file".into()).into_response(),
+    }
+}
+
+#[derive(Template)]
+#[template(path = "error.html")]
+struct ErrorPage<'a> {
+    heading: &'a str,
+    message: &'a str,
+}
+
+/// The plain error page every failed page request gets.
+pub fn error_page(status: StatusCode, message: &str) -> Response {
+    let heading = match status {
+        StatusCode::NOT_FOUND => "Not found",
+        StatusCode::UNPROCESSABLE_ENTITY => "That input was not accepted",
+        StatusCode::CONFLICT => "Changed in the meantime",
+        StatusCode::PAYLOAD_TOO_LARGE => "Too large",
+        _ => "Something went wrong",
+    };
+    let body = ErrorPage { heading, message }
+        .render()
+        .unwrap_or_else(|_| "Something went wrong.".into());
+    (status, Html(body)).into_response()
+}
+
+/// Renders a page template, turning a template failure into a logged 500.
+pub fn render<T: Template>(page: T) -> Response {
+    match page.render() {
+        Ok(html) => Html(html).into_response(),
+        Err(e) => AppError::Internal(format!("template: {e}")).into_response(),
+    }
+}
+
+/// After a successful POST: go to the record's page (303, so a reload does not resubmit).
+pub fn see_other(to: &str) -> Response {
+    Redirect::to(to).into_response()
+}
+
+/// Code/label pairs of a vocabulary, for `<select>` options.
+pub fn options<T: Copy>(
+    all: &[T],
+    code: fn(T) -> &'static str,
+    label: fn(T) -> &'static str,
+) -> Vec<(&'static str, &'static str)> {
+    all.iter().map(|v| (code(*v), label(*v))).collect()
+}
+
+/// The hidden `version` field of an edit form.
+pub fn parse_version(raw: &str) -> Result<i64, AppError> {
+    raw.trim().parse().map_err(|_| {
+        AppError::input(
+            "version",
+            "the form is missing its record version; reload the page",
+        )
+    })
+}
