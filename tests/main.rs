@@ -1,1 +1,10 @@
-fn main() {}
+//! Integration tests: pages and API in-process against a real database (a fresh SQLite
+//! file per test, and a fresh PostgreSQL database per test when `TEST_DATABASE_URL` is set),
+//! plus the real binary.
+
+mod helpers;
+
+mod api;
+mod binary;
+mod pages;
+mod storage;

@@ -245,8 +245,13 @@ pub fn formulation_estimate(
             });
         } else if let Some(lacks) = lacking(method, c, used.is_empty()) {
             reasoning.push(format!(
-                "{name} ({:.1} % of solids) has no {lacks} value and is left out.",
-                share * 100.0
+                "{name} ({:.1} % of solids) has no {} value and is left out.",
+                share * 100.0,
+                match lacks {
+                    "tg_prime_c" => "Tg'",
+                    "k" => "Gordon–Taylor k",
+                    _ => "ΔCp",
+                }
             ));
             missing.push(MissingValue {
                 name,

@@ -14,7 +14,7 @@ use crate::error::{celsius_to_kelvin_checked, finite, InputError};
 use crate::mixture::{fox_binary_k, gordon_taylor_binary};
 use crate::units::{c_to_k, k_to_c};
 
-/// Range of k searched.
+/// Range of k searched (k outside it is not a physical binary glass mixture).
 pub const K_MIN: f64 = 1e-3;
 pub const K_MAX: f64 = 1e3;
 const SCAN_STEPS: usize = 240;

@@ -1,0 +1,99 @@
+//! The real binary: `serve` answers `/healthz`; `calc` speaks the API's JSON.
+
+use std::io::{BufRead, BufReader, Read, Write};
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+fn binary() -> &'static str {
+    env!("CARGO_BIN_EXE_glasspoint")
+}
+
+#[test]
+fn serve_on_a_free_port_answers_healthz() {
+    let dir = tempfile::tempdir().unwrap();
+    let db = format!("sqlite://{}", dir.path().join("bin.db").display());
+    let mut child = Command::new(binary())
+        .args(["serve", "--bind", "127.0.0.1:0", "--database", &db])
+        .current_dir(dir.path())
+        .stderr(Stdio::piped())
+        .stdout(Stdio::null())
+        .spawn()
+        .expect("start glasspoint serve");
+    let stderr = child.stderr.take().unwrap();
+    let (tx, rx) = std::sync::mpsc::channel();
+    std::thread::spawn(move || {
+        for line in BufReader::new(stderr).lines().map_while(Result::ok) {
+            if let Some(addr) = line.split("listening on http://").nth(1) {
+                let _ = tx.send(addr.trim().to_string());
+            }
+        }
+    });
+    let addr = rx
+        .recv_timeout(Duration::from_secs(60))
+        .expect("the server says where it listens");
+    let deadline = Instant::now() + Duration::from_secs(20);
+    let reply = loop {
+        match std::net::TcpStream::connect(&addr) {
+            Ok(mut s) => {
+                s.write_all(
+                    format!("GET /healthz HTTP/1.1\r\nHost: {addr}\r\nConnection: close\r\n\r\n")
+                        .as_bytes(),
+                )
+                .unwrap();
+                let mut out = String::new();
+                s.read_to_string(&mut out).unwrap();
+                break out;
+            }
+            Err(_) if Instant::now() < deadline => std::thread::sleep(Duration::from_millis(100)),
+            Err(e) => panic!("cannot connect: {e}"),
+        }
+    };
+    let _ = child.kill();
+    let _ = child.wait();
+    assert!(reply.starts_with("HTTP/1.1 200"), "{reply}");
+}
+
+fn calc(topic: &str, input: &str) -> (i32, String, String) {
+    let mut child = Command::new(binary())
+        .args(["calc", topic])
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(input.as_bytes())
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn calc_answers_json_and_refuses_bad_input_with_status_2_naming_the_field() {
+    let (code, out, _) = calc("ice-vapor-pressure", r#"{"temperature_c": -30}"#);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    // Murphy & Koop (2005) eq. 7 at −30 °C: 38.0 Pa (IAPWS 2011 agrees within 0.1 %).
+    assert!(
+        (v["pressure_pa"].as_f64().unwrap() - 38.0).abs() < 0.2,
+        "{v}"
+    );
+    let (code, _, err) = calc("ice-vapor-pressure", r#"{"temperature_c": 20}"#);
+    assert_eq!(code, 2);
+    assert!(err.contains("temperature_c"), "{err}");
+    let (code, _, err) = calc("ice-vapor-pressure", r#"{}"#);
+    assert_eq!(code, 2);
+    assert!(err.contains("temperature_c"), "{err}");
+    let (code, _, err) = calc("ice-vapor-pressure", "not json");
+    assert_eq!(code, 2, "{err}");
+    let (code, _, err) = calc("no-such-topic", "{}");
+    assert_eq!(code, 2);
+    assert!(err.contains("topic"), "{err}");
+}

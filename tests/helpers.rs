@@ -1,0 +1,227 @@
+//! The test app: the real router on a fresh database.
+
+use std::sync::atomic::{AtomicU32, Ordering};
+use std::sync::Arc;
+
+use axum::body::Body;
+use axum::http::{header, Request, StatusCode};
+use axum::Router;
+use glasspoint::{AppState, Config, Store};
+use http_body_util::BodyExt;
+use tower::ServiceExt;
+
+pub struct TestApp {
+    pub router: Router,
+    pub store: Store,
+    /// Keeps the SQLite file alive for the test's duration.
+    _dir: Option<tempfile::TempDir>,
+    /// PostgreSQL database to drop afterwards: (admin URL, name).
+    pg: Option<(String, String)>,
+}
+
+pub struct Reply {
+    pub status: StatusCode,
+    pub location: Option<String>,
+    pub body: String,
+}
+
+impl Reply {
+    pub fn json(&self) -> serde_json::Value {
+        serde_json::from_str(&self.body).unwrap_or_else(|e| panic!("not JSON ({e}): {}", self.body))
+    }
+}
+
+static COUNTER: AtomicU32 = AtomicU32::new(0);
+
+impl TestApp {
+    fn build(
+        store: Store,
+        dir: Option<tempfile::TempDir>,
+        pg: Option<(String, String)>,
+    ) -> TestApp {
+        let state = AppState {
+            store: store.clone(),
+            config: Arc::new(Config::for_database("test")),
+        };
+        TestApp {
+            router: glasspoint::router(state),
+            store,
+            _dir: dir,
+            pg,
+        }
+    }
+
+    /// A fresh, migrated SQLite file.
+    pub async fn sqlite() -> TestApp {
+        let dir = tempfile::tempdir().expect("temp dir");
+        let url = format!("sqlite://{}", dir.path().join("test.db").display());
+        let store = Store::connect(&url).await.expect("connect sqlite");
+        store.migrate().await.expect("migrate sqlite");
+        Self::build(store, Some(dir), None)
+    }
+
+    /// A fresh, migrated PostgreSQL database, when `TEST_DATABASE_URL` names a server.
+    pub async fn postgres() -> Option<TestApp> {
+        let admin = match std::env::var("TEST_DATABASE_URL") {
+            Ok(url) if !url.trim().is_empty() => url,
+            _ => {
+                eprintln!("TEST_DATABASE_URL not set: PostgreSQL variant skipped");
+                return None;
+            }
+        };
+        let name = format!(
+            "gp_t{}_{}_{}",
+            std::process::id(),
+            COUNTER.fetch_add(1, Ordering::SeqCst),
+            std::time::SystemTime::now()
+                .duration_since(std::time::UNIX_EPOCH)
+                .map(|d| d.subsec_nanos())
+                .unwrap_or(0)
+        );
+        let admin_pool = sqlx::PgPool::connect(&admin)
+            .await
+            .expect("connect to TEST_DATABASE_URL");
+        sqlx::query(&format!("CREATE DATABASE {name}"))
+            .execute(&admin_pool)
+            .await
+            .expect("create test database");
+        admin_pool.close().await;
+        let url = replace_database(&admin, &name);
+        let store = Store::connect(&url).await.expect("connect postgres");
+        store.migrate().await.expect("migrate postgres");
+        Some(Self::build(store, None, Some((admin, name))))
+    }
+
+    pub async fn load_demo(&self) {
+        self.store.seed_demo().await.expect("seed demo");
+    }
+
+    pub async fn request(&self, req: Request<Body>) -> Reply {
+        let response = self
+            .router
+            .clone()
+            .oneshot(req)
+            .await
+            .expect("router answers");
+        let status = response.status();
+        let location = response
+            .headers()
+            .get(header::LOCATION)
+            .and_then(|v| v.to_str().ok())
+            .map(str::to_string);
+        let bytes = response
+            .into_body()
+            .collect()
+            .await
+            .expect("body")
+            .to_bytes();
+        Reply {
+            status,
+            location,
+            body: String::from_utf8_lossy(&bytes).into_owned(),
+        }
+    }
+
+    pub async fn get(&self, path: &str) -> Reply {
+        self.request(Request::get(path).body(Body::empty()).unwrap())
+            .await
+    }
+
+    pub async fn post_form(&self, path: &str, fields: &[(&str, &str)]) -> Reply {
+        let body = serde_urlencoded::to_string(fields).unwrap();
+        self.request(
+            Request::post(path)
+                .header(header::CONTENT_TYPE, "application/x-www-form-urlencoded")
+                .body(Body::from(body))
+                .unwrap(),
+        )
+        .await
+    }
+
+    pub async fn send_json(&self, method: &str, path: &str, body: &serde_json::Value) -> Reply {
+        self.request(
+            Request::builder()
+                .method(method)
+                .uri(path)
+                .header(header::CONTENT_TYPE, "application/json")
+                .body(Body::from(body.to_string()))
+                .unwrap(),
+        )
+        .await
+    }
+
+    pub async fn post_json(&self, path: &str, body: &serde_json::Value) -> Reply {
+        self.send_json("POST", path, body).await
+    }
+
+    pub async fn put_json(&self, path: &str, body: &serde_json::Value) -> Reply {
+        self.send_json("PUT", path, body).await
+    }
+
+    /// The id of the shipped material `name`.
+    pub async fn material_id(&self, name: &str) -> i64 {
+        self.store
+            .list_materials()
+            .await
+            .unwrap()
+            .into_iter()
+            .find(|m| m.name == name)
+            .unwrap_or_else(|| panic!("material {name} is in the library"))
+            .id
+    }
+
+    pub async fn cleanup(self) {
+        let TestApp { store, pg, .. } = self;
+        store.close().await;
+        if let Some((admin, name)) = pg {
+            if let Ok(pool) = sqlx::PgPool::connect(&admin).await {
+                let _ = sqlx::query(&format!("DROP DATABASE IF EXISTS {name}"))
+                    .execute(&pool)
+                    .await;
+                pool.close().await;
+            }
+        }
+    }
+}
+
+fn replace_database(url: &str, name: &str) -> String {
+    let (base, query) = match url.split_once('?') {
+        Some((b, q)) => (b, format!("?{q}")),
+        None => (url, String::new()),
+    };
+    let without_db = match base.rfind('/') {
+        Some(i) if i > "postgres://".len() => &base[..i],
+        _ => base,
+    };
+    format!("{without_db}/{name}{query}")
+}
+
+/// Runs a test body on SQLite, and again on PostgreSQL when `TEST_DATABASE_URL` is set.
+#[macro_export]
+macro_rules! on_both_backends {
+    ($(#[$meta:meta])* async fn $name:ident($app:ident) $body:block) => {
+        $(#[$meta])*
+        mod $name {
+            #[allow(unused_imports)]
+            use super::*;
+
+            async fn run($app: $crate::helpers::TestApp) -> $crate::helpers::TestApp {
+                $body
+                $app
+            }
+
+            #[tokio::test]
+            async fn on_sqlite() {
+                let app = $crate::helpers::TestApp::sqlite().await;
+                run(app).await.cleanup().await;
+            }
+
+            #[tokio::test]
+            async fn on_postgres() {
+                if let Some(app) = $crate::helpers::TestApp::postgres().await {
+                    run(app).await.cleanup().await;
+                }
+            }
+        }
+    };
+}
