@@ -176,3 +176,11 @@ impl MeasurementKind {
         !matches!(self, MeasurementKind::CakeTg)
     }
 }
+
+labelled_enum!(
+    /// Where a candidate cycle stands; archived instead of deleted.
+    CycleStatus {
+        Candidate => ("candidate", "Candidate"),
+        Archived => ("archived", "Archived"),
+    }
+);

@@ -895,10 +895,13 @@ impl MeasurementForm {
     }
 }
 
-/// Replicates of one kind of result, summarised.
+/// Replicates of one result, summarised: same kind, same method and, for a dried-cake
+/// Tg, the same residual moisture (values at other moistures are other results).
 #[derive(Debug, Clone, serde::Serialize, ToSchema)]
 pub struct ReplicateSummary {
     pub kind: MeasurementKind,
+    pub method: MeasurementMethod,
+    pub residual_moisture_pct: Option<f64>,
     pub n: usize,
     pub mean_c: f64,
     /// Sample standard deviation (n − 1); absent for a single value.
@@ -907,33 +910,69 @@ pub struct ReplicateSummary {
     pub max_c: f64,
 }
 
-/// Mean, SD and range per kind, in the order of `MeasurementKind::ALL`. Dried-cake Tg
-/// values at different moistures are not replicates of each other and are summarised
-/// per kind only for orientation.
+impl ReplicateSummary {
+    /// "Tg′ · DSC", "Dried-cake Tg · DSC · 1.0 % moisture".
+    pub fn label(&self) -> String {
+        match self.residual_moisture_pct {
+            Some(w) => format!("{} · {} · {w:.1} % moisture", self.kind.label(), self.method.label()),
+            None => format!("{} · {}", self.kind.label(), self.method.label()),
+        }
+    }
+}
+
+/// Summaries in the order of `MeasurementKind::ALL`, then method, then moisture.
 pub fn summarise(measurements: &[Measurement]) -> Vec<ReplicateSummary> {
-    MeasurementKind::ALL
-        .iter()
-        .filter_map(|kind| {
+    let mut keys: Vec<(MeasurementKind, MeasurementMethod, Option<i64>)> = Vec::new();
+    for m in measurements {
+        let key = (m.kind, m.method, moisture_key(m));
+        if !keys.contains(&key) {
+            keys.push(key);
+        }
+    }
+    let order = |k: &MeasurementKind| MeasurementKind::ALL.iter().position(|x| x == k);
+    let method_order = |k: &MeasurementMethod| MeasurementMethod::ALL.iter().position(|x| x == k);
+    keys.sort_by_key(|(k, m, w)| (order(k), method_order(m), *w));
+    keys.into_iter()
+        .filter_map(|(kind, method, w)| {
             let values: Vec<f64> = measurements
                 .iter()
-                .filter(|m| m.kind == *kind)
+                .filter(|m| m.kind == kind && m.method == method && moisture_key(m) == w)
                 .map(|m| m.value_c)
                 .collect();
-            summary_of(*kind, &values)
+            summary_of(kind, method, w.map(|w| w as f64 / 100.0), &values)
         })
         .collect()
 }
 
-fn summary_of(kind: MeasurementKind, values: &[f64]) -> Option<ReplicateSummary> {
+/// Residual moisture to 0.01 %, so that equal moistures group together.
+fn moisture_key(m: &Measurement) -> Option<i64> {
+    m.residual_moisture_pct.map(|w| (w * 100.0).round() as i64)
+}
+
+/// The mean of every value of `kind` (all methods), when there is one.
+pub fn mean_of(measurements: &[Measurement], kind: MeasurementKind) -> Option<f64> {
+    let values: Vec<f64> = measurements.iter().filter(|m| m.kind == kind).map(|m| m.value_c).collect();
+    (!values.is_empty()).then(|| values.iter().sum::<f64>() / values.len() as f64)
+}
+
+fn summary_of(
+    kind: MeasurementKind,
+    method: MeasurementMethod,
+    residual_moisture_pct: Option<f64>,
+    values: &[f64],
+) -> Option<ReplicateSummary> {
     if values.is_empty() {
         return None;
     }
     let n = values.len();
     let mean = values.iter().sum::<f64>() / n as f64;
-    let sd = (n > 1)
-        .then(|| (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt());
+    let sd = (n > 1).then(|| {
+        (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt()
+    });
     Some(ReplicateSummary {
         kind,
+        method,
+        residual_moisture_pct,
         n,
         mean_c: mean,
         sd_c: sd,
@@ -982,7 +1021,7 @@ mod tests {
 
     #[test]
     fn replicate_summary_uses_the_sample_standard_deviation() {
-        let sd = summary_of(MeasurementKind::TgPrime, &[-33.0, -32.0, -31.0])
+        let sd = summary_of(MeasurementKind::TgPrime, MeasurementMethod::Dsc, None, &[-33.0, -32.0, -31.0])
             .unwrap()
             .sd_c
             .unwrap();

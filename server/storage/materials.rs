@@ -270,6 +270,7 @@ pub(super) async fn stale_or_missing(store: &Store, what: &str, id: i64) -> AppE
         "Material" => "materials",
         "Container" => "containers",
         "Formulation" => "formulations",
+        "Cycle" => "cycles",
         _ => "measurements",
     };
     let sql = format!("SELECT COUNT(*) FROM {table} WHERE id = $1");

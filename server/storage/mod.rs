@@ -2,6 +2,7 @@
 //! SQLite and PostgreSQL), run on whichever pool the URL chose.
 
 mod containers;
+mod cycles;
 pub mod demo;
 mod formulations;
 mod library;

@@ -100,7 +100,9 @@ fn best_at(explorer: &Explorer, pressure: f64, shelf: [f64; 2]) -> Option<Operat
     let b = explorer.boundary(pressure, shelf[0], shelf[1]);
     let hottest = match b.state {
         BoundaryState::Crosses | BoundaryState::BelowLimitAcrossRange => b.shelf_temp_c?,
-        BoundaryState::AboveLimitAcrossRange | BoundaryState::NoSublimation => return None,
+        BoundaryState::AboveLimitAcrossRange
+        | BoundaryState::NoSublimation
+        | BoundaryState::SublimesOnlyAboveLimit => return None,
     };
     // A set point a user can type, on the safe side of the solved boundary.
     let mut shelf_c = ((hottest * 10.0 + 1e-9).floor() / 10.0).max(shelf[0]);
@@ -326,4 +328,111 @@ pub fn calc_suggest_primary_drying(
 ) -> Result<serde_json::Value, InputError> {
     let input: SuggestInput = crate::calc::parse_input(input)?;
     crate::calc::to_output(&suggest(&input)?)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::drying::tests::{merge, sucrose_5_percent};
+    use crate::drying::{simulate_summary, PrimaryDryingInput};
+    use approx::assert_relative_eq;
+    use serde_json::json;
+
+    fn asking(limit: f64) -> SuggestInput {
+        SuggestInput {
+            base: sucrose_5_percent(),
+            max_product_temp_c: limit,
+            shelf_range_c: None,
+            pressure_range_mtorr: None,
+            start_shelf_temp_c: None,
+            ramp_c_per_min: None,
+        }
+    }
+
+    #[test]
+    fn the_tang_pikal_pressure_formula_is_reproduced() {
+        // Tang & Pikal (2004), from memory: Pc = 0.29·10^(0.019·Tp) Torr.
+        assert_relative_eq!(tang_pikal_pressure_torr(0.0), 0.29, max_relative = 1e-12);
+        // −30 °C: 0.29 × 10^−0.57 = 0.0781 Torr; −20 °C: 0.29 × 10^−0.38 = 0.1209 Torr.
+        assert_relative_eq!(tang_pikal_pressure_torr(-30.0), 0.078_05, max_relative = 1e-3);
+        assert_relative_eq!(tang_pikal_pressure_torr(-20.0), 0.120_89, max_relative = 1e-3);
+    }
+
+    #[test]
+    fn the_suggestion_keeps_the_front_at_the_limit_and_no_warmer_shelf_would() {
+        let limit = -32.0;
+        let s = suggest(&asking(limit)).unwrap();
+        assert!(s.peak_front_temp_c <= limit + 1e-9, "{}", s.peak_front_temp_c);
+        assert!(s.peak_front_temp_c > limit - 0.2, "{}", s.peak_front_temp_c);
+        assert!((30.0..=300.0).contains(&s.chamber_pressure_mtorr));
+        assert!((-40.0..=40.0).contains(&s.shelf_temp_c));
+        let warmer = PrimaryDryingInput::constant(&sucrose_5_percent(), s.shelf_temp_c + 0.2, s.chamber_pressure_mtorr);
+        assert!(simulate_summary(&warmer).unwrap().peak_front_temp_c > limit);
+        assert_relative_eq!(s.tang_pikal_pressure_mtorr, 290.0 * 10f64.powf(0.019 * limit), max_relative = 1e-12);
+        assert!(s.reasoning.iter().any(|r| r.contains("Tang & Pikal")));
+        assert!(s.caution.contains("experimental"));
+    }
+
+    #[test]
+    fn the_suggestion_dries_at_least_as_fast_as_any_pressure_on_a_coarse_sweep() {
+        let limit = -30.0;
+        let s = suggest(&asking(limit)).unwrap();
+        let product = Product::new(&sucrose_5_percent()).unwrap();
+        let explorer = Explorer { product, approach: Approach::Held, limit_k: c_to_k(limit) };
+        for p in (30..=300).step_by(15) {
+            if let Some(point) = best_at(&explorer, f64::from(p), DEFAULT_SHELF_RANGE_C) {
+                assert!(
+                    s.drying_time_h <= point.drying_time_h * 1.001,
+                    "{} h at {} mTorr beats the suggestion's {} h",
+                    point.drying_time_h,
+                    p,
+                    s.drying_time_h
+                );
+            }
+        }
+        let tp = s.at_tang_pikal_pressure.unwrap();
+        assert!(tp.peak_front_temp_c <= limit + 1e-9);
+        assert!(s.drying_time_h <= tp.drying_time_h * 1.001);
+    }
+
+    #[test]
+    fn a_narrow_shelf_range_caps_the_shelf_and_says_so() {
+        let mut input = asking(-25.0);
+        input.shelf_range_c = Some([-40.0, -20.0]);
+        let s = suggest(&input).unwrap();
+        assert_relative_eq!(s.shelf_temp_c, -20.0);
+        assert!(s.reasoning.iter().any(|r| r.contains("top of its range")));
+    }
+
+    #[test]
+    fn a_limit_no_setting_can_keep_is_refused_naming_the_limit() {
+        // At 30 mTorr ice sublimes only with its front above about −51 °C.
+        let err = suggest(&asking(-55.0)).unwrap_err();
+        assert_eq!(err.field, "max_product_temp_c");
+        assert!(err.message.contains("no shelf temperature"), "{}", err.message);
+    }
+
+    #[test]
+    fn bad_ranges_are_refused_by_name() {
+        let base = serde_json::to_value(asking(-30.0)).unwrap();
+        let cases = [
+            ("shelf_range_c", json!({"shelf_range_c": [10.0, -10.0]})),
+            ("pressure_range_mtorr[0]", json!({"pressure_range_mtorr": [0.0, 100.0]})),
+            ("base.resistance.r0_cm2_torr_h_g", json!({"base": {"resistance": {"r0_cm2_torr_h_g": -1.0}}})),
+        ];
+        for (field, patch) in cases {
+            let mut input = base.clone();
+            merge(&mut input, &patch);
+            let err = calc_suggest_primary_drying(input).unwrap_err();
+            assert_eq!(err.field, field, "{patch}: {err}");
+        }
+    }
+
+    #[test]
+    fn a_narrow_pressure_range_without_a_whole_mtorr_is_handled() {
+        let mut input = asking(-30.0);
+        input.pressure_range_mtorr = Some([80.2, 80.7]);
+        let s = suggest(&input).unwrap();
+        assert!((80.2..=80.7).contains(&s.chamber_pressure_mtorr), "{}", s.chamber_pressure_mtorr);
+    }
 }
