@@ -70,6 +70,7 @@ labelled_enum!(
         Te => ("te_c", "Eutectic Te (°C)"),
         DeltaCp => ("delta_cp_j_gk", "ΔCp at Tg (J/(g·K))"),
         GordonTaylorK => ("gt_k_water", "Gordon–Taylor k with water"),
+        TgPrimeBlendK => ("tg_prime_blend_k", "Gordon–Taylor k in Tg′ blends"),
         Density => ("density_g_cm3", "Density (g/cm³)"),
         MolarMass => ("molar_mass_g_mol", "Molar mass (g/mol)"),
     }
@@ -148,7 +149,7 @@ impl PropertyKind {
             PropertyKind::TgPrime | PropertyKind::Te => (-120.0, 50.0),
             PropertyKind::Tg => (-150.0, 300.0),
             PropertyKind::DeltaCp => (0.0, 5.0),
-            PropertyKind::GordonTaylorK => (0.0, 100.0),
+            PropertyKind::GordonTaylorK | PropertyKind::TgPrimeBlendK => (0.0, 100.0),
             PropertyKind::Density => (0.1, 25.0),
             PropertyKind::MolarMass => (1.0, 1.0e7),
         }

@@ -192,7 +192,10 @@ impl MaterialForm {
             let value = optional_number(&mut errors, &value_field, &p.value);
             let (min, max) = kind.range();
             check_range(&mut errors, &value_field, value, min, max, "");
-            if matches!(kind, PropertyKind::DeltaCp | PropertyKind::GordonTaylorK) {
+            if matches!(
+                kind,
+                PropertyKind::DeltaCp | PropertyKind::GordonTaylorK | PropertyKind::TgPrimeBlendK
+            ) {
                 check_positive(&mut errors, &value_field, value, max, "");
             }
             let citation =

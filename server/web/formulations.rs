@@ -316,14 +316,50 @@ pub fn unprocessable(mut r: Response) -> Response {
 #[template(path = "formulations/detail.html")]
 struct DetailPage {
     f: Formulation,
+    d: super::derived_view::DerivedView,
+    margin_input: String,
+    margin_error: String,
     updated: String,
     summaries: Vec<ReplicateSummary>,
     groups: Vec<(MeasurementKind, Vec<Measurement>)>,
 }
 
-async fn detail(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+#[derive(Debug, Default, Deserialize)]
+struct DetailQuery {
+    #[serde(default)]
+    margin_c: String,
+}
+
+/// The safety margin asked for on the page, or the team default with a message.
+fn margin_from(raw: &str) -> (f64, String) {
+    let default = crate::derive::DEFAULT_MARGIN_C;
+    let text = raw.trim();
+    if text.is_empty() {
+        return (default, String::new());
+    }
+    match text.replace(',', ".").parse::<f64>() {
+        Ok(v) if (0.0..=glasspoint_science::limit::MAX_MARGIN_C).contains(&v) => (v, String::new()),
+        Ok(_) => (
+            default,
+            format!(
+                "margin_c: must lie between 0 and {} °C; the team default of {default} °C is shown",
+                glasspoint_science::limit::MAX_MARGIN_C
+            ),
+        ),
+        Err(_) => (default, format!("margin_c: “{text}” is not a number; the team default of {default} °C is shown")),
+    }
+}
+
+async fn detail(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    Query(q): Query<DetailQuery>,
+) -> Result<Response, AppError> {
     let f = state.store.get_formulation(id).await?;
     let measurements = state.store.measurements_of(id).await?;
+    let materials = state.store.list_materials().await?;
+    let (margin_c, margin_error) = margin_from(&q.margin_c);
+    let derived = crate::derive::derive(&f, &measurements, &materials, margin_c);
     let summaries = summarise(&measurements);
     let groups = MeasurementKind::ALL
         .iter()
@@ -346,6 +382,13 @@ async fn detail(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Re
         ))
         .unwrap_or_default();
     Ok(render(DetailPage {
+        d: super::derived_view::view(&derived),
+        margin_input: if q.margin_c.trim().is_empty() || !margin_error.is_empty() {
+            crate::web::fmt::trim(margin_c)
+        } else {
+            q.margin_c.trim().to_string()
+        },
+        margin_error,
         f,
         updated,
         summaries,

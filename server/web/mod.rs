@@ -2,6 +2,8 @@
 //! store or the science, render.
 
 mod containers;
+mod cycles;
+mod derived_view;
 pub mod fmt;
 mod formulations;
 pub use formulations::ListQuery as FormulationListQuery;
@@ -34,6 +36,7 @@ pub fn router() -> Router<AppState> {
         .merge(measurements::router())
         .merge(materials::router())
         .merge(containers::router())
+        .merge(cycles::router())
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 

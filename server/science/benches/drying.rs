@@ -37,8 +37,16 @@ fn one_simulation(c: &mut Criterion) {
     let ramped = PrimaryDryingInput::programmed(
         &base(),
         vec![
-            ShelfStep { ramp_c_per_min: 0.5, target_c: -20.0, hold_min: 600.0 },
-            ShelfStep { ramp_c_per_min: 0.2, target_c: -10.0, hold_min: 300.0 },
+            ShelfStep {
+                ramp_c_per_min: 0.5,
+                target_c: -20.0,
+                hold_min: 600.0,
+            },
+            ShelfStep {
+                ramp_c_per_min: 0.2,
+                target_c: -10.0,
+                hold_min: 300.0,
+            },
         ],
         Some(-45.0),
         80.0,

@@ -266,8 +266,8 @@ fn crystallize(input: &AnnealingInput, c: &Checked, above_tg: f64) -> AnnealingA
         ));
     } else if let Some(t) = a.suggested_temp_c {
         a.reasoning.push(format!(
-            "Window {low:.1} to {high:.1} °C; suggested {t:.1} °C for {:.0}–{:.0} h. Mannitol \
-             is typically annealed at {:.0} to {:.0} °C (common practice, from memory).",
+            "Window {low:.1} to {high:.1} °C; suggested {t:.1} °C for {:.0}–{:.0} h. A bulking \
+             agent such as mannitol is typically annealed at {:.0} to {:.0} °C (common practice, from memory).",
             TYPICAL_HOLD_H[0],
             TYPICAL_HOLD_H[1],
             TYPICAL_BULKING_RANGE_C.0,

@@ -1023,6 +1023,12 @@ fn integrate(
             return Err(e.into());
         }
         let end = t + root?.x;
+        if end > max_s {
+            return Err(DryingStop::TooSlow {
+                max_h: MAX_DRYING_TIME_H,
+                ice_left_percent: 100.0 * (1.0 - dried / height),
+            });
+        }
         let shelf_k = seg.temp_k(end);
         let last = balance(p, c, shelf_k, height, guess_k)?;
         push(
@@ -1352,12 +1358,15 @@ pub(crate) mod tests {
             80.0,
         );
         for input in [at(-25.0, 100.0), at(0.0, 200.0), ramped] {
-            let coarse = simulate_at(&input, Resolution::default()).unwrap();
-            let fine = simulate_at(&input, Resolution::default().halved()).unwrap();
-            let (a, b) = (coarse.summary.drying_time_h, fine.summary.drying_time_h);
-            assert!((a - b).abs() / b < 1e-3, "{a} h vs {b} h");
-            let peak = (coarse.summary.peak_front_temp_c - fine.summary.peak_front_temp_c).abs();
-            assert!(peak < 0.05, "peak differs by {peak} °C");
+            for resolution in [Resolution::default(), Resolution::for_series()] {
+                let coarse = simulate_at(&input, resolution).unwrap();
+                let fine = simulate_at(&input, resolution.halved()).unwrap();
+                let (a, b) = (coarse.summary.drying_time_h, fine.summary.drying_time_h);
+                assert!((a - b).abs() / b < 1e-3, "{a} h vs {b} h");
+                let peak =
+                    (coarse.summary.peak_front_temp_c - fine.summary.peak_front_temp_c).abs();
+                assert!(peak < 0.05, "peak differs by {peak} °C");
+            }
         }
     }
 
@@ -1491,6 +1500,54 @@ pub(crate) mod tests {
                 if *ice_left > 0.0 && *ice_left < 1.0),
             "{err:?}"
         );
+    }
+
+    #[test]
+    fn a_shelf_barely_above_the_equilibrium_temperature_is_refused_as_too_slow() {
+        // At 100 mTorr ice sublimes above −39.67 °C; a −39.6 °C shelf sublimes almost nothing.
+        let err = simulate_checked(&at(-39.6, 100.0)).unwrap_err();
+        assert!(
+            matches!(
+                err,
+                DryingError::Stop {
+                    stop: DryingStop::TooSlow { .. },
+                    ..
+                }
+            ),
+            "{err:?}"
+        );
+    }
+
+    #[test]
+    fn the_vapour_pressure_slope_matches_the_ice_equation() {
+        for t in [200.0, 230.0, 250.0, 270.0] {
+            let h = 1e-4;
+            let numeric = (vapour_pressure_pa_unchecked(t + h).ln()
+                - vapour_pressure_pa_unchecked(t - h).ln())
+                / (2.0 * h);
+            assert_relative_eq!(vapour_pressure_log_slope(t), numeric, max_relative = 1e-7);
+        }
+    }
+
+    #[test]
+    fn a_long_program_is_drawn_with_at_most_200_points_ending_at_the_last_ice() {
+        let steps = (0..60)
+            .map(|i| ShelfStep {
+                ramp_c_per_min: 0.1,
+                target_c: if i % 2 == 0 { -20.0 } else { -30.0 },
+                hold_min: 30.0,
+            })
+            .collect();
+        let input = PrimaryDryingInput::programmed(&sucrose_5_percent(), steps, None, 100.0);
+        let r = simulate(&input).unwrap();
+        assert!(
+            r.series.len() <= MAX_SERIES_POINTS && r.series.len() > 100,
+            "{}",
+            r.series.len()
+        );
+        let last = r.series.last().unwrap();
+        assert_relative_eq!(last.time_h, r.summary.drying_time_h);
+        assert!(r.series.windows(2).all(|w| w[1].time_h > w[0].time_h));
     }
 
     #[test]

@@ -354,21 +354,41 @@ mod tests {
         // Tang & Pikal (2004), from memory: Pc = 0.29·10^(0.019·Tp) Torr.
         assert_relative_eq!(tang_pikal_pressure_torr(0.0), 0.29, max_relative = 1e-12);
         // −30 °C: 0.29 × 10^−0.57 = 0.0781 Torr; −20 °C: 0.29 × 10^−0.38 = 0.1209 Torr.
-        assert_relative_eq!(tang_pikal_pressure_torr(-30.0), 0.078_05, max_relative = 1e-3);
-        assert_relative_eq!(tang_pikal_pressure_torr(-20.0), 0.120_89, max_relative = 1e-3);
+        assert_relative_eq!(
+            tang_pikal_pressure_torr(-30.0),
+            0.078_05,
+            max_relative = 1e-3
+        );
+        assert_relative_eq!(
+            tang_pikal_pressure_torr(-20.0),
+            0.120_89,
+            max_relative = 1e-3
+        );
     }
 
     #[test]
     fn the_suggestion_keeps_the_front_at_the_limit_and_no_warmer_shelf_would() {
         let limit = -32.0;
         let s = suggest(&asking(limit)).unwrap();
-        assert!(s.peak_front_temp_c <= limit + 1e-9, "{}", s.peak_front_temp_c);
+        assert!(
+            s.peak_front_temp_c <= limit + 1e-9,
+            "{}",
+            s.peak_front_temp_c
+        );
         assert!(s.peak_front_temp_c > limit - 0.2, "{}", s.peak_front_temp_c);
         assert!((30.0..=300.0).contains(&s.chamber_pressure_mtorr));
         assert!((-40.0..=40.0).contains(&s.shelf_temp_c));
-        let warmer = PrimaryDryingInput::constant(&sucrose_5_percent(), s.shelf_temp_c + 0.2, s.chamber_pressure_mtorr);
+        let warmer = PrimaryDryingInput::constant(
+            &sucrose_5_percent(),
+            s.shelf_temp_c + 0.2,
+            s.chamber_pressure_mtorr,
+        );
         assert!(simulate_summary(&warmer).unwrap().peak_front_temp_c > limit);
-        assert_relative_eq!(s.tang_pikal_pressure_mtorr, 290.0 * 10f64.powf(0.019 * limit), max_relative = 1e-12);
+        assert_relative_eq!(
+            s.tang_pikal_pressure_mtorr,
+            290.0 * 10f64.powf(0.019 * limit),
+            max_relative = 1e-12
+        );
         assert!(s.reasoning.iter().any(|r| r.contains("Tang & Pikal")));
         assert!(s.caution.contains("experimental"));
     }
@@ -378,7 +398,11 @@ mod tests {
         let limit = -30.0;
         let s = suggest(&asking(limit)).unwrap();
         let product = Product::new(&sucrose_5_percent()).unwrap();
-        let explorer = Explorer { product, approach: Approach::Held, limit_k: c_to_k(limit) };
+        let explorer = Explorer {
+            product,
+            approach: Approach::Held,
+            limit_k: c_to_k(limit),
+        };
         for p in (30..=300).step_by(15) {
             if let Some(point) = best_at(&explorer, f64::from(p), DEFAULT_SHELF_RANGE_C) {
                 assert!(
@@ -409,7 +433,11 @@ mod tests {
         // At 30 mTorr ice sublimes only with its front above about −51 °C.
         let err = suggest(&asking(-55.0)).unwrap_err();
         assert_eq!(err.field, "max_product_temp_c");
-        assert!(err.message.contains("no shelf temperature"), "{}", err.message);
+        assert!(
+            err.message.contains("no shelf temperature"),
+            "{}",
+            err.message
+        );
     }
 
     #[test]
@@ -417,8 +445,14 @@ mod tests {
         let base = serde_json::to_value(asking(-30.0)).unwrap();
         let cases = [
             ("shelf_range_c", json!({"shelf_range_c": [10.0, -10.0]})),
-            ("pressure_range_mtorr[0]", json!({"pressure_range_mtorr": [0.0, 100.0]})),
-            ("base.resistance.r0_cm2_torr_h_g", json!({"base": {"resistance": {"r0_cm2_torr_h_g": -1.0}}})),
+            (
+                "pressure_range_mtorr[0]",
+                json!({"pressure_range_mtorr": [0.0, 100.0]}),
+            ),
+            (
+                "base.resistance.r0_cm2_torr_h_g",
+                json!({"base": {"resistance": {"r0_cm2_torr_h_g": -1.0}}}),
+            ),
         ];
         for (field, patch) in cases {
             let mut input = base.clone();
@@ -433,6 +467,10 @@ mod tests {
         let mut input = asking(-30.0);
         input.pressure_range_mtorr = Some([80.2, 80.7]);
         let s = suggest(&input).unwrap();
-        assert!((80.2..=80.7).contains(&s.chamber_pressure_mtorr), "{}", s.chamber_pressure_mtorr);
+        assert!(
+            (80.2..=80.7).contains(&s.chamber_pressure_mtorr),
+            "{}",
+            s.chamber_pressure_mtorr
+        );
     }
 }

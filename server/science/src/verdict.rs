@@ -8,8 +8,8 @@ use serde::{Deserialize, Serialize};
 
 use crate::design_space::SublimationCeiling;
 use crate::drying::{
-    chamber_pressure_pa, simulate_checked, DryingBase, DryingError, DryingStop,
-    PrimaryDryingInput, PrimaryDryingResult, ShelfStep,
+    chamber_pressure_pa, simulate_checked, DryingBase, DryingError, DryingStop, PrimaryDryingInput,
+    PrimaryDryingResult, ShelfStep,
 };
 use crate::error::{finite, non_negative, positive, InputError};
 use crate::ice::vapour_pressure_pa_unchecked;
@@ -166,7 +166,11 @@ impl Default for VerdictOptions {
 }
 
 fn check(topic: CheckTopic, state: CheckState, message: String) -> Check {
-    Check { topic, state, message }
+    Check {
+        topic,
+        state,
+        message,
+    }
 }
 
 fn temp_c(field: &str, v: f64) -> Result<f64, InputError> {
@@ -174,7 +178,10 @@ fn temp_c(field: &str, v: f64) -> Result<f64, InputError> {
     if (-120.0..=120.0).contains(&v) {
         Ok(v)
     } else {
-        Err(InputError::new(field, format!("must lie between −120 and 120 °C (got {v})")))
+        Err(InputError::new(
+            field,
+            format!("must lie between −120 and 120 °C (got {v})"),
+        ))
     }
 }
 
@@ -264,8 +271,7 @@ pub fn check_cycle(
     validate_cycle(cycle)?;
     let options = VerdictOptions {
         safety_factor: safety_factor.unwrap_or(DEFAULT_SAFETY_FACTOR),
-        sublimation_ceiling_g_h_per_vial: ceiling
-            .map(|c| c.per_vial_g_h(base.vial.outer_area_cm2)),
+        sublimation_ceiling_g_h_per_vial: ceiling.map(|c| c.per_vial_g_h(base.vial.outer_area_cm2)),
     };
     let input = primary_drying_input(cycle, base, facts.max_product_temp_c);
     match simulate_checked(&input) {
@@ -315,7 +321,11 @@ fn judge(
         }
         Err(stop) => {
             let message = format!("The model cannot dry this cycle's primary step: {stop}.");
-            checks.push(check(CheckTopic::PrimaryDryingTime, CheckState::Fails, message));
+            checks.push(check(
+                CheckTopic::PrimaryDryingTime,
+                CheckState::Fails,
+                message,
+            ));
         }
     }
     checks.push(freezing(cycle, facts));
@@ -324,7 +334,11 @@ fn judge(
     if let Some(c) = condenser(cycle) {
         checks.push(c);
     }
-    let overall = checks.iter().map(|c| c.state).max().unwrap_or(CheckState::Ok);
+    let overall = checks
+        .iter()
+        .map(|c| c.state)
+        .max()
+        .unwrap_or(CheckState::Ok);
     Ok(CycleVerdict {
         overall,
         checks,
@@ -347,7 +361,9 @@ fn product_temperature(facts: &FormulationFacts, r: &PrimaryDryingResult) -> Che
     };
     if peak > limit {
         let s = &r.summary;
-        let same_limit = s.max_product_temp_c.is_some_and(|l| (l - limit).abs() < 1e-9);
+        let same_limit = s
+            .max_product_temp_c
+            .is_some_and(|l| (l - limit).abs() < 1e-9);
         let timing = match (same_limit, s.limit_first_exceeded_h, s.limit_exceeded_h) {
             (true, Some(first), Some(total)) => format!(
                 ": first above it at {first:.1} h of primary drying and above it for {total:.1} h \
@@ -380,7 +396,9 @@ fn product_temperature(facts: &FormulationFacts, r: &PrimaryDryingResult) -> Che
     check(
         topic,
         CheckState::Ok,
-        format!("The front peaks at {peak:.1} °C, {margin:.1} °C below the limit of {limit:.1} °C."),
+        format!(
+            "The front peaks at {peak:.1} °C, {margin:.1} °C below the limit of {limit:.1} °C."
+        ),
     )
 }
 
@@ -493,7 +511,10 @@ fn freezing(cycle: &CycleProgram, facts: &FormulationFacts) -> Check {
         ),
         Some((name, t)) => (
             CheckState::Ok,
-            format!("Freezing holds at {hold:.1} °C, {:.1} °C below {name} ({t:.1} °C).", t - hold),
+            format!(
+                "Freezing holds at {hold:.1} °C, {:.1} °C below {name} ({t:.1} °C).",
+                t - hold
+            ),
         ),
     };
     if f.hold_min < MIN_FREEZE_HOLD_MIN {
@@ -525,7 +546,11 @@ fn annealing(cycle: &CycleProgram, facts: &FormulationFacts) -> Check {
                 ),
             )
         } else {
-            check(topic, CheckState::Ok, "No annealing step, and none is advised.".to_string())
+            check(
+                topic,
+                CheckState::Ok,
+                "No annealing step, and none is advised.".to_string(),
+            )
         };
     };
     let t = a.temp_c;
@@ -661,7 +686,11 @@ mod tests {
     /// limit of −34 °C; primary hold sized from the model with a wide margin.
     fn cycle(primary_shelf_c: f64, pc_mtorr: f64, primary_hold_min: f64) -> CycleProgram {
         CycleProgram {
-            freezing: FreezingStep { ramp_c_per_min: 1.0, hold_temp_c: -45.0, hold_min: 120.0 },
+            freezing: FreezingStep {
+                ramp_c_per_min: 1.0,
+                hold_temp_c: -45.0,
+                hold_min: 120.0,
+            },
             annealing: None,
             primary: PrimaryStep {
                 ramp_c_per_min: 0.5,
@@ -692,29 +721,48 @@ mod tests {
     }
 
     fn state_of(v: &CycleVerdict, topic: CheckTopic) -> CheckState {
-        v.checks.iter().find(|c| c.topic == topic).map(|c| c.state).unwrap()
+        v.checks
+            .iter()
+            .find(|c| c.topic == topic)
+            .map(|c| c.state)
+            .unwrap()
     }
 
     fn message_of(v: &CycleVerdict, topic: CheckTopic) -> String {
-        v.checks.iter().find(|c| c.topic == topic).map(|c| c.message.clone()).unwrap()
+        v.checks
+            .iter()
+            .find(|c| c.topic == topic)
+            .map(|c| c.message.clone())
+            .unwrap()
     }
 
     #[test]
     fn a_conservative_cycle_passes_every_check() {
         let input = primary_drying_input(&cycle(-35.0, 60.0, 0.0), &sucrose_5_percent(), None);
         let predicted_h = simulate(&input).unwrap().summary.drying_time_h;
-        let v = verdict(&cycle(-35.0, 60.0, predicted_h * 1.3 * 60.0), &sucrose_facts());
+        let v = verdict(
+            &cycle(-35.0, 60.0, predicted_h * 1.3 * 60.0),
+            &sucrose_facts(),
+        );
         assert_eq!(v.overall, CheckState::Ok, "{v:#?}");
-        assert!(v.caution.contains("do not replace experimental confirmation"));
+        assert!(v
+            .caution
+            .contains("do not replace experimental confirmation"));
         assert_eq!(caution(), v.caution);
     }
 
     #[test]
     fn a_front_above_the_limit_fails_and_says_when_and_for_how_long() {
         let v = verdict(&cycle(-20.0, 100.0, 100.0 * 60.0), &sucrose_facts());
-        assert_eq!(state_of(&v, CheckTopic::ProductTemperature), CheckState::Fails);
+        assert_eq!(
+            state_of(&v, CheckTopic::ProductTemperature),
+            CheckState::Fails
+        );
         let m = message_of(&v, CheckTopic::ProductTemperature);
-        assert!(m.contains("first above it at") && m.contains("in all"), "{m}");
+        assert!(
+            m.contains("first above it at") && m.contains("in all"),
+            "{m}"
+        );
         assert_eq!(v.overall, CheckState::Fails);
     }
 
@@ -726,13 +774,22 @@ mod tests {
         let ramp_h = 10.0 / 0.5 / 60.0;
         let with_hold = |h: f64| cycle(-35.0, 60.0, (h - ramp_h) * 60.0);
         let short = verdict(&with_hold(predicted * 0.9), &sucrose_facts());
-        assert_eq!(state_of(&short, CheckTopic::PrimaryDryingTime), CheckState::Fails);
+        assert_eq!(
+            state_of(&short, CheckTopic::PrimaryDryingTime),
+            CheckState::Fails
+        );
         assert!(message_of(&short, CheckTopic::PrimaryDryingTime).contains("Ice would be left"));
         // 5 % margin: below the default 15 % (common practice 10–20 %, no source).
         let thin = verdict(&with_hold(predicted * 1.05), &sucrose_facts());
-        assert_eq!(state_of(&thin, CheckTopic::PrimaryDryingTime), CheckState::Watch);
+        assert_eq!(
+            state_of(&thin, CheckTopic::PrimaryDryingTime),
+            CheckState::Watch
+        );
         let ample = verdict(&with_hold(predicted * 1.2), &sucrose_facts());
-        assert_eq!(state_of(&ample, CheckTopic::PrimaryDryingTime), CheckState::Ok);
+        assert_eq!(
+            state_of(&ample, CheckTopic::PrimaryDryingTime),
+            CheckState::Ok
+        );
     }
 
     #[test]
@@ -753,7 +810,11 @@ mod tests {
 
     #[test]
     fn a_lower_te_governs_the_freezing_check() {
-        let facts = FormulationFacts { te_c: Some(-21.5), tg_prime_c: Some(-15.0), ..sucrose_facts() };
+        let facts = FormulationFacts {
+            te_c: Some(-21.5),
+            tg_prime_c: Some(-15.0),
+            ..sucrose_facts()
+        };
         let mut c = cycle(-35.0, 60.0, 140.0 * 60.0);
         c.freezing.hold_temp_c = -18.0;
         let v = verdict(&c, &facts);
@@ -773,16 +834,34 @@ mod tests {
         let base = cycle(-35.0, 60.0, 140.0 * 60.0);
         let with_anneal = |temp_c: f64, hold_min: f64| {
             let mut c = base.clone();
-            c.annealing = Some(AnnealingStep { temp_c, hold_min, return_ramp_c_per_min: None });
+            c.annealing = Some(AnnealingStep {
+                temp_c,
+                hold_min,
+                return_ramp_c_per_min: None,
+            });
             c
         };
-        let state = |c: &CycleProgram, f: &FormulationFacts| state_of(&verdict(c, f), CheckTopic::Annealing);
+        let state = |c: &CycleProgram, f: &FormulationFacts| {
+            state_of(&verdict(c, f), CheckTopic::Annealing)
+        };
         assert_eq!(state(&base, &advised), CheckState::Watch);
         assert_eq!(state(&with_anneal(-20.0, 180.0), &advised), CheckState::Ok);
-        assert_eq!(state(&with_anneal(-30.0, 180.0), &advised), CheckState::Watch);
-        assert_eq!(state(&with_anneal(-20.0, 20.0), &advised), CheckState::Watch);
-        assert_eq!(state(&with_anneal(-1.0, 180.0), &advised), CheckState::Fails);
-        assert_eq!(state(&with_anneal(-20.0, 180.0), &sucrose_facts()), CheckState::Watch);
+        assert_eq!(
+            state(&with_anneal(-30.0, 180.0), &advised),
+            CheckState::Watch
+        );
+        assert_eq!(
+            state(&with_anneal(-20.0, 20.0), &advised),
+            CheckState::Watch
+        );
+        assert_eq!(
+            state(&with_anneal(-1.0, 180.0), &advised),
+            CheckState::Fails
+        );
+        assert_eq!(
+            state(&with_anneal(-20.0, 180.0), &sucrose_facts()),
+            CheckState::Watch
+        );
         assert_eq!(state(&base, &sucrose_facts()), CheckState::Ok);
     }
 
@@ -791,9 +870,18 @@ mod tests {
         // From memory: 0.1–0.15 °C/min amorphous, 0.3–0.4 °C/min crystalline.
         let mut c = cycle(-35.0, 60.0, 140.0 * 60.0);
         c.secondary.ramp_c_per_min = 0.3;
-        assert_eq!(state_of(&verdict(&c, &sucrose_facts()), CheckTopic::SecondaryRamp), CheckState::Watch);
-        let crystalline = FormulationFacts { crystalline: true, ..sucrose_facts() };
-        assert_eq!(state_of(&verdict(&c, &crystalline), CheckTopic::SecondaryRamp), CheckState::Ok);
+        assert_eq!(
+            state_of(&verdict(&c, &sucrose_facts()), CheckTopic::SecondaryRamp),
+            CheckState::Watch
+        );
+        let crystalline = FormulationFacts {
+            crystalline: true,
+            ..sucrose_facts()
+        };
+        assert_eq!(
+            state_of(&verdict(&c, &crystalline), CheckTopic::SecondaryRamp),
+            CheckState::Ok
+        );
     }
 
     #[test]
@@ -804,22 +892,51 @@ mod tests {
             assert!(p < 0.05 * mtorr_to_pa(100.0), "{p} Pa at {t} °C");
             let mut c = cycle(-35.0, 100.0, 140.0 * 60.0);
             c.condenser_temp_c = Some(t);
-            assert_eq!(state_of(&verdict(&c, &sucrose_facts()), CheckTopic::Condenser), CheckState::Ok);
+            assert_eq!(
+                state_of(&verdict(&c, &sucrose_facts()), CheckTopic::Condenser),
+                CheckState::Ok
+            );
         }
         let mut warm = cycle(-35.0, 60.0, 140.0 * 60.0);
         warm.condenser_temp_c = Some(-45.0); // ice there has about 54 mTorr
-        assert_eq!(state_of(&verdict(&warm, &sucrose_facts()), CheckTopic::Condenser), CheckState::Watch);
+        assert_eq!(
+            state_of(&verdict(&warm, &sucrose_facts()), CheckTopic::Condenser),
+            CheckState::Watch
+        );
         warm.condenser_temp_c = Some(-35.0);
-        assert_eq!(state_of(&verdict(&warm, &sucrose_facts()), CheckTopic::Condenser), CheckState::Fails);
+        assert_eq!(
+            state_of(&verdict(&warm, &sucrose_facts()), CheckTopic::Condenser),
+            CheckState::Fails
+        );
     }
 
     #[test]
     fn an_equipment_ceiling_below_the_peak_rate_fails() {
         let c = cycle(-35.0, 60.0, 140.0 * 60.0);
-        let tight = check_cycle(&c, &sucrose_facts(), &sucrose_5_percent(), Some(SublimationCeiling::PerVialGH(0.01)), None).unwrap();
-        assert_eq!(state_of(&tight, CheckTopic::SublimationCapacity), CheckState::Fails);
-        let roomy = check_cycle(&c, &sucrose_facts(), &sucrose_5_percent(), Some(SublimationCeiling::PerShelfAreaKgHM2(2.0)), None).unwrap();
-        assert_eq!(state_of(&roomy, CheckTopic::SublimationCapacity), CheckState::Ok);
+        let tight = check_cycle(
+            &c,
+            &sucrose_facts(),
+            &sucrose_5_percent(),
+            Some(SublimationCeiling::PerVialGH(0.01)),
+            None,
+        )
+        .unwrap();
+        assert_eq!(
+            state_of(&tight, CheckTopic::SublimationCapacity),
+            CheckState::Fails
+        );
+        let roomy = check_cycle(
+            &c,
+            &sucrose_facts(),
+            &sucrose_5_percent(),
+            Some(SublimationCeiling::PerShelfAreaKgHM2(2.0)),
+            None,
+        )
+        .unwrap();
+        assert_eq!(
+            state_of(&roomy, CheckTopic::SublimationCapacity),
+            CheckState::Ok
+        );
     }
 
     #[test]
@@ -832,8 +949,14 @@ mod tests {
 
     #[test]
     fn without_a_known_limit_the_product_temperature_is_watched() {
-        let v = verdict(&cycle(-35.0, 60.0, 140.0 * 60.0), &FormulationFacts::default());
-        assert_eq!(state_of(&v, CheckTopic::ProductTemperature), CheckState::Watch);
+        let v = verdict(
+            &cycle(-35.0, 60.0, 140.0 * 60.0),
+            &FormulationFacts::default(),
+        );
+        assert_eq!(
+            state_of(&v, CheckTopic::ProductTemperature),
+            CheckState::Watch
+        );
     }
 
     #[test]
@@ -846,8 +969,18 @@ mod tests {
         c.secondary.ramp_c_per_min = f64::NAN;
         let err = check_cycle(&c, &sucrose_facts(), &sucrose_5_percent(), None, None).unwrap_err();
         assert_eq!(err.field, "secondary.ramp_c_per_min");
-        let facts = FormulationFacts { anneal_window_c: Some((-10.0, -20.0)), ..sucrose_facts() };
-        let err = check_cycle(&cycle(-35.0, 60.0, 6000.0), &facts, &sucrose_5_percent(), None, None).unwrap_err();
+        let facts = FormulationFacts {
+            anneal_window_c: Some((-10.0, -20.0)),
+            ..sucrose_facts()
+        };
+        let err = check_cycle(
+            &cycle(-35.0, 60.0, 6000.0),
+            &facts,
+            &sucrose_5_percent(),
+            None,
+            None,
+        )
+        .unwrap_err();
         assert_eq!(err.field, "anneal_window_c");
     }
 }
