@@ -111,8 +111,8 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             if demo {
                 let report = store.seed_demo().await?;
                 eprintln!(
-                    "glasspoint: demo scenario: {} formulations and {} measurements added",
-                    report.formulations, report.measurements
+                    "glasspoint: demo scenario: {} formulations, {} measurements and {} cycles added",
+                    report.formulations, report.measurements, report.cycles
                 );
             }
             let mut config = Config::for_database(url);
@@ -130,8 +130,8 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             let (store, _) = open(db).await?;
             let r = store.seed_demo().await?;
             eprintln!(
-                "glasspoint: demo scenario loaded: {} materials, {} formulations, {} measurements added",
-                r.materials, r.formulations, r.measurements
+                "glasspoint: demo scenario loaded: {} materials, {} formulations, {} measurements, {} cycles added",
+                r.materials, r.formulations, r.measurements, r.cycles
             );
             store.close().await;
             Ok(ExitCode::SUCCESS)

@@ -57,10 +57,17 @@ pub fn science_components(f: &Formulation, materials: &[Material]) -> Vec<Formul
 
 /// The `formulation-estimate` input for a stored formulation, keeping the caller's options
 /// (method, share of missing values).
-pub async fn inline_composition(store: &Store, formulation_id: i64, options: &Value) -> Result<Value, AppError> {
+pub async fn inline_composition(
+    store: &Store,
+    formulation_id: i64,
+    options: &Value,
+) -> Result<Value, AppError> {
     let f = match store.get_formulation(formulation_id).await {
         Err(AppError::NotFound(_)) => {
-            return Err(AppError::input("formulation_id", format!("no formulation has id {formulation_id}")))
+            return Err(AppError::input(
+                "formulation_id",
+                format!("no formulation has id {formulation_id}"),
+            ))
         }
         other => other?,
     };
@@ -124,10 +131,18 @@ impl Derived {
 }
 
 /// Derives the estimate, limit and advice of `f` from its measurements and the library.
-pub fn derive(f: &Formulation, measurements: &[Measurement], materials: &[Material], margin_c: f64) -> Derived {
+pub fn derive(
+    f: &Formulation,
+    measurements: &[Measurement],
+    materials: &[Material],
+    margin_c: f64,
+) -> Derived {
     let components = science_components(f, materials);
     let (estimate, estimate_note) = if components.is_empty() {
-        (None, Some("No composition is recorded, so Tg′ cannot be estimated.".to_string()))
+        (
+            None,
+            Some("No composition is recorded, so Tg′ cannot be estimated.".to_string()),
+        )
     } else {
         match formulation_estimate(&FormulationEstimateInput {
             components: components.clone(),
@@ -135,7 +150,10 @@ pub fn derive(f: &Formulation, measurements: &[Measurement], materials: &[Materi
             max_missing_share: glasspoint_science::composition::DEFAULT_MAX_MISSING_SHARE,
         }) {
             Ok(e) => (Some(e), None),
-            Err(e) => (None, Some(format!("The estimate could not be made: {}.", e.message))),
+            Err(e) => (
+                None,
+                Some(format!("The estimate could not be made: {}.", e.message)),
+            ),
         }
     };
     let estimate_value = estimate.as_ref().and_then(|e| e.estimate_tg_prime_c);
@@ -172,7 +190,10 @@ pub fn derive(f: &Formulation, measurements: &[Measurement], materials: &[Materi
         })
         .min_by(|a, b| a.0.total_cmp(&b.0));
     let (te_c, te_basis) = match (mean_of(measurements, MeasurementKind::Te), library_te) {
-        (Some(t), _) => (Some(t), Some("measured Te (mean of the replicates)".to_string())),
+        (Some(t), _) => (
+            Some(t),
+            Some("measured Te (mean of the replicates)".to_string()),
+        ),
         (None, Some((t, name))) => (Some(t), Some(format!("library Te of {name}"))),
         (None, None) => (None, None),
     };
@@ -206,14 +227,29 @@ pub fn derive(f: &Formulation, measurements: &[Measurement], materials: &[Materi
                     .iter()
                     .find(|m| m.id == c.material_id)
                     .and_then(|m| m.value(PropertyKind::Te))
-                    .or(if crystallizing.len() == 1 { mean_of(measurements, MeasurementKind::Te) } else { None }),
+                    .or(if crystallizing.len() == 1 {
+                        mean_of(measurements, MeasurementKind::Te)
+                    } else {
+                        None
+                    }),
                 solid_fraction: c.solid_fraction,
             })
             .collect(),
         amorphous_tg_prime_c: measured_tg_prime_c.or(estimate_value),
-        tg_prime_source: if measured_tg_prime_c.is_some() { TgPrimeSource::Measured } else { TgPrimeSource::Estimated },
-        crystallization_exotherm_onset_c: mean_of(measurements, MeasurementKind::CrystallizationExotherm),
-        amorphous_present: Some(f.components.iter().any(|c| c.freezing_behaviour != FreezingBehaviour::Crystallizes)),
+        tg_prime_source: if measured_tg_prime_c.is_some() {
+            TgPrimeSource::Measured
+        } else {
+            TgPrimeSource::Estimated
+        },
+        crystallization_exotherm_onset_c: mean_of(
+            measurements,
+            MeasurementKind::CrystallizationExotherm,
+        ),
+        amorphous_present: Some(
+            f.components
+                .iter()
+                .any(|c| c.freezing_behaviour != FreezingBehaviour::Crystallizes),
+        ),
         protein_present: f.components.iter().any(|c| c.role == MaterialRole::Active),
     };
     let (annealing, annealing_note) = if f.components.is_empty() {
@@ -247,7 +283,9 @@ pub fn derive(f: &Formulation, measurements: &[Measurement], materials: &[Materi
 
 use glasspoint_science::design_space::SublimationCeiling;
 use glasspoint_science::drying::{DryingBase, PrimaryDryingResult, Resistance, Vial};
-use glasspoint_science::verdict::{check_cycle, primary_drying_input, CycleVerdict, FormulationFacts};
+use glasspoint_science::verdict::{
+    check_cycle, primary_drying_input, CycleVerdict, FormulationFacts,
+};
 
 /// Solution density taken for every formulation, g/mL (the model's default).
 pub const SOLUTION_DENSITY_G_ML: f64 = 1.0;
@@ -284,7 +322,12 @@ pub async fn resistance_of(store: &Store, f: &Formulation) -> Result<DryLayerRes
 }
 
 /// The primary-drying model's view of a formulation in a container and fill.
-pub fn drying_base(f: &Formulation, container: &Container, fill_volume_ml: f64, resistance: Resistance) -> DryingBase {
+pub fn drying_base(
+    f: &Formulation,
+    container: &Container,
+    fill_volume_ml: f64,
+    resistance: Resistance,
+) -> DryingBase {
     DryingBase {
         fill_volume_ml,
         solids_mass_fraction: f.solids_mass_fraction(SOLUTION_DENSITY_G_ML),
@@ -339,11 +382,24 @@ pub async fn assess(store: &Store, link: CycleLink) -> Result<Assessment, AppErr
     let materials = store.list_materials().await?;
     let derived = derive(&formulation, &measurements, &materials, DEFAULT_MARGIN_C);
     let resistance = resistance_of(store, &formulation).await?;
-    let base = drying_base(&formulation, &container, link.fill_volume_ml, resistance.resistance);
+    let base = drying_base(
+        &formulation,
+        &container,
+        link.fill_volume_ml,
+        resistance.resistance,
+    );
     let facts = facts(&derived);
-    let ceiling = cycle.sublimation_ceiling_kg_h_m2.map(SublimationCeiling::PerShelfAreaKgHM2);
-    let verdict = check_cycle(&cycle.program, &facts, &base, ceiling, None).map_err(|e| format!("{}: {}", e.field, e.message));
-    let simulation = glasspoint_science::drying::simulate(&primary_drying_input(&cycle.program, &base, facts.max_product_temp_c)).ok();
+    let ceiling = cycle
+        .sublimation_ceiling_kg_h_m2
+        .map(SublimationCeiling::PerShelfAreaKgHM2);
+    let verdict = check_cycle(&cycle.program, &facts, &base, ceiling, None)
+        .map_err(|e| format!("{}: {}", e.field, e.message));
+    let simulation = glasspoint_science::drying::simulate(&primary_drying_input(
+        &cycle.program,
+        &base,
+        facts.max_product_temp_c,
+    ))
+    .ok();
     Ok(Assessment {
         link,
         cycle,

@@ -10,7 +10,6 @@ use utoipa::ToSchema;
 use super::enums::CycleStatus;
 use super::fields::*;
 
-
 /// A candidate cycle as stored.
 #[derive(Debug, Clone, serde::Serialize, ToSchema)]
 pub struct Cycle {
@@ -147,11 +146,15 @@ impl CycleForm {
             "" => "mTorr",
             u if PRESSURE_UNITS.contains(&u) => u,
             other => {
-                e.add("pressure_unit", format!("“{other}” is not one of: mTorr, Pa, mbar"));
+                e.add(
+                    "pressure_unit",
+                    format!("“{other}” is not one of: mTorr, Pa, mbar"),
+                );
                 "mTorr"
             }
         };
-        let mut req = |field: &str, raw: &str| required_number(&mut e, field, raw).unwrap_or(f64::NAN);
+        let mut req =
+            |field: &str, raw: &str| required_number(&mut e, field, raw).unwrap_or(f64::NAN);
         let freezing = FreezingStep {
             ramp_c_per_min: req("freezing_ramp_c_per_min", &self.freezing_ramp_c_per_min),
             hold_temp_c: req("freezing_hold_temp_c", &self.freezing_hold_temp_c),
@@ -160,7 +163,10 @@ impl CycleForm {
         let primary = PrimaryStep {
             ramp_c_per_min: req("primary_ramp_c_per_min", &self.primary_ramp_c_per_min),
             shelf_temp_c: req("primary_shelf_temp_c", &self.primary_shelf_temp_c),
-            chamber_pressure_mtorr: to_mtorr(req("primary_chamber_pressure", &self.primary_chamber_pressure), unit),
+            chamber_pressure_mtorr: to_mtorr(
+                req("primary_chamber_pressure", &self.primary_chamber_pressure),
+                unit,
+            ),
             hold_min: req("primary_hold_h", &self.primary_hold_h) * 60.0,
         };
         let secondary = SecondaryStep {
@@ -171,7 +177,11 @@ impl CycleForm {
         };
         let anneal_temp = optional_number(&mut e, "annealing_temp_c", &self.annealing_temp_c);
         let anneal_hold = optional_number(&mut e, "annealing_hold_h", &self.annealing_hold_h);
-        let anneal_ramp = optional_number(&mut e, "annealing_return_ramp_c_per_min", &self.annealing_return_ramp_c_per_min);
+        let anneal_ramp = optional_number(
+            &mut e,
+            "annealing_return_ramp_c_per_min",
+            &self.annealing_return_ramp_c_per_min,
+        );
         let annealing = match (anneal_temp, anneal_hold) {
             (Some(temp_c), Some(h)) => Some(AnnealingStep {
                 temp_c,
@@ -180,22 +190,41 @@ impl CycleForm {
             }),
             (None, None) => {
                 if anneal_ramp.is_some() {
-                    e.add("annealing_temp_c", "an annealing step needs its temperature and hold time");
+                    e.add(
+                        "annealing_temp_c",
+                        "an annealing step needs its temperature and hold time",
+                    );
                 }
                 None
             }
             (None, Some(_)) => {
-                e.add("annealing_temp_c", "give the annealing temperature, or clear the hold time");
+                e.add(
+                    "annealing_temp_c",
+                    "give the annealing temperature, or clear the hold time",
+                );
                 None
             }
             (Some(_), None) => {
-                e.add("annealing_hold_h", "give the annealing hold time, or clear the temperature");
+                e.add(
+                    "annealing_hold_h",
+                    "give the annealing hold time, or clear the temperature",
+                );
                 None
             }
         };
         let condenser = optional_number(&mut e, "condenser_temp_c", &self.condenser_temp_c);
-        let ceiling = optional_number(&mut e, "sublimation_ceiling_kg_h_m2", &self.sublimation_ceiling_kg_h_m2);
-        check_positive(&mut e, "sublimation_ceiling_kg_h_m2", ceiling, 100.0, "kg/(h·m²)");
+        let ceiling = optional_number(
+            &mut e,
+            "sublimation_ceiling_kg_h_m2",
+            &self.sublimation_ceiling_kg_h_m2,
+        );
+        check_positive(
+            &mut e,
+            "sublimation_ceiling_kg_h_m2",
+            ceiling,
+            100.0,
+            "kg/(h·m²)",
+        );
         let program = CycleProgram {
             freezing,
             annealing,
@@ -259,7 +288,10 @@ impl ResistanceForm {
         let a2 = required_number(&mut e, "a2_per_cm", &self.a2_per_cm);
         check_range(&mut e, "a2_per_cm", a2, 0.0, 1000.0, "1/cm");
         if r0 == Some(0.0) && a1 == Some(0.0) && !e.has("r0_cm2_torr_h_g") {
-            e.add("r0_cm2_torr_h_g", "a dried layer with no resistance at all is not physical");
+            e.add(
+                "r0_cm2_torr_h_g",
+                "a dried layer with no resistance at all is not physical",
+            );
         }
         let source = required_text(&mut e, "source", &self.source, 500);
         e.into_result((

@@ -917,7 +917,11 @@ impl ReplicateSummary {
     /// "Tg′ · DSC", "Dried-cake Tg · DSC · 1.0 % moisture".
     pub fn label(&self) -> String {
         match self.residual_moisture_pct {
-            Some(w) => format!("{} · {} · {w:.1} % moisture", self.kind.label(), self.method.label()),
+            Some(w) => format!(
+                "{} · {} · {w:.1} % moisture",
+                self.kind.label(),
+                self.method.label()
+            ),
             None => format!("{} · {}", self.kind.label(), self.method.label()),
         }
     }
@@ -954,7 +958,11 @@ fn moisture_key(m: &Measurement) -> Option<i64> {
 
 /// The mean of every value of `kind` (all methods), when there is one.
 pub fn mean_of(measurements: &[Measurement], kind: MeasurementKind) -> Option<f64> {
-    let values: Vec<f64> = measurements.iter().filter(|m| m.kind == kind).map(|m| m.value_c).collect();
+    let values: Vec<f64> = measurements
+        .iter()
+        .filter(|m| m.kind == kind)
+        .map(|m| m.value_c)
+        .collect();
     (!values.is_empty()).then(|| values.iter().sum::<f64>() / values.len() as f64)
 }
 
@@ -969,9 +977,8 @@ fn summary_of(
     }
     let n = values.len();
     let mean = values.iter().sum::<f64>() / n as f64;
-    let sd = (n > 1).then(|| {
-        (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt()
-    });
+    let sd = (n > 1)
+        .then(|| (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt());
     Some(ReplicateSummary {
         kind,
         method,
@@ -1024,10 +1031,15 @@ mod tests {
 
     #[test]
     fn replicate_summary_uses_the_sample_standard_deviation() {
-        let sd = summary_of(MeasurementKind::TgPrime, MeasurementMethod::Dsc, None, &[-33.0, -32.0, -31.0])
-            .unwrap()
-            .sd_c
-            .unwrap();
+        let sd = summary_of(
+            MeasurementKind::TgPrime,
+            MeasurementMethod::Dsc,
+            None,
+            &[-33.0, -32.0, -31.0],
+        )
+        .unwrap()
+        .sd_c
+        .unwrap();
         assert!((sd - 1.0).abs() < 1e-12);
     }
 

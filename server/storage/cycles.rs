@@ -1,7 +1,9 @@
 //! Cycle, link and dry-layer resistance queries.
 
 use glasspoint_science::drying::Resistance;
-use glasspoint_science::verdict::{AnnealingStep, CycleProgram, FreezingStep, PrimaryStep, SecondaryStep};
+use glasspoint_science::verdict::{
+    AnnealingStep, CycleProgram, FreezingStep, PrimaryStep, SecondaryStep,
+};
 use sqlx::FromRow;
 
 use super::materials::stale_or_missing;
@@ -91,7 +93,8 @@ struct LinkRow {
     fill_volume_ml: f64,
 }
 
-const SELECT_LINKS: &str = "SELECT l.id, l.cycle_id, y.name AS cycle_name, l.formulation_id, f.code AS formulation_code, \
+const SELECT_LINKS: &str =
+    "SELECT l.id, l.cycle_id, y.name AS cycle_name, l.formulation_id, f.code AS formulation_code, \
      l.container_id, c.name AS container_name, l.fill_volume_ml FROM cycle_links l \
      JOIN cycles y ON y.id = l.cycle_id JOIN formulations f ON f.id = l.formulation_id \
      JOIN containers c ON c.id = l.container_id";
@@ -187,7 +190,12 @@ impl Store {
         })
     }
 
-    pub async fn update_cycle(&self, id: i64, version: i64, d: &CycleDraft) -> Result<(), AppError> {
+    pub async fn update_cycle(
+        &self,
+        id: i64,
+        version: i64,
+        d: &CycleDraft,
+    ) -> Result<(), AppError> {
         let current = self.get_cycle(id).await?;
         let at = now();
         let sql = "UPDATE cycles SET name = $1, status = $2, notes = $3, freeze_ramp_c_min = $4, freeze_hold_c = $5, \
@@ -240,7 +248,10 @@ impl Store {
     }
 
     /// Links of a formulation to candidate (not archived) cycles.
-    pub async fn links_of_formulation(&self, formulation_id: i64) -> Result<Vec<CycleLink>, AppError> {
+    pub async fn links_of_formulation(
+        &self,
+        formulation_id: i64,
+    ) -> Result<Vec<CycleLink>, AppError> {
         let rows: Vec<LinkRow> = on_pool!(self, pool => {
             sqlx::query_as(&format!(
                 "{SELECT_LINKS} WHERE l.formulation_id = $1 AND y.status <> 'archived' ORDER BY y.name, l.id"
@@ -307,7 +318,10 @@ impl Store {
     }
 
     /// The formulation's measured resistance, if one was recorded.
-    pub async fn measured_resistance(&self, formulation_id: i64) -> Result<Option<DryLayerResistance>, AppError> {
+    pub async fn measured_resistance(
+        &self,
+        formulation_id: i64,
+    ) -> Result<Option<DryLayerResistance>, AppError> {
         let row: Option<(f64, f64, f64, String, i64)> = on_pool!(self, pool => {
             sqlx::query_as(
                 "SELECT r0_cm2_torr_h_g, a1_cm_torr_h_g, a2_per_cm, source, version FROM dry_layer_resistance WHERE formulation_id = $1",
@@ -317,7 +331,11 @@ impl Store {
             .await?
         });
         Ok(row.map(|(r0, a1, a2, source, version)| DryLayerResistance {
-            resistance: Resistance { r0_cm2_torr_h_g: r0, a1_cm_torr_h_g: a1, a2_per_cm: a2 },
+            resistance: Resistance {
+                r0_cm2_torr_h_g: r0,
+                a1_cm_torr_h_g: a1,
+                a2_per_cm: a2,
+            },
             measured: true,
             source,
             version,

@@ -15,6 +15,29 @@ struct Demo {
     #[serde(default)]
     materials: Vec<LibraryMaterial>,
     formulations: Vec<DemoFormulation>,
+    #[serde(default)]
+    cycles: Vec<DemoCycle>,
+}
+
+#[derive(Deserialize)]
+struct DemoCycle {
+    name: String,
+    #[serde(default)]
+    notes: String,
+    freezing: glasspoint_science::verdict::FreezingStep,
+    annealing: Option<glasspoint_science::verdict::AnnealingStep>,
+    primary: glasspoint_science::verdict::PrimaryStep,
+    secondary: glasspoint_science::verdict::SecondaryStep,
+    condenser_temp_c: Option<f64>,
+    sublimation_ceiling_kg_h_m2: Option<f64>,
+    links: Vec<DemoLink>,
+}
+
+#[derive(Deserialize)]
+struct DemoLink {
+    formulation: String,
+    container: String,
+    fill_volume_ml: f64,
 }
 
 #[derive(Deserialize)]
@@ -66,6 +89,7 @@ pub struct DemoReport {
     pub materials: usize,
     pub formulations: usize,
     pub measurements: usize,
+    pub cycles: usize,
 }
 
 fn bad_demo(msg: String) -> AppError {
@@ -173,6 +197,59 @@ impl Store {
                     .map_err(|e| bad_demo(format!("{}: {:?}", f.code, e.first())))?;
                 self.create_measurement(id, &draft).await?;
                 report.measurements += 1;
+            }
+        }
+        for c in demo.cycles {
+            if self.cycle_id_by_name(&c.name).await?.is_some() {
+                continue;
+            }
+            let program = glasspoint_science::verdict::CycleProgram {
+                freezing: c.freezing,
+                annealing: c.annealing,
+                primary: c.primary,
+                secondary: c.secondary,
+                condenser_temp_c: c.condenser_temp_c,
+            };
+            glasspoint_science::verdict::validate_cycle(&program)
+                .map_err(|e| bad_demo(format!("cycle {}: {e}", c.name)))?;
+            let id = self
+                .create_cycle(&CycleDraft {
+                    name: c.name.clone(),
+                    notes: c.notes,
+                    program,
+                    sublimation_ceiling_kg_h_m2: c.sublimation_ceiling_kg_h_m2,
+                })
+                .await?;
+            report.cycles += 1;
+            for l in c.links {
+                let formulation_id = self
+                    .formulation_id_by_code(&l.formulation)
+                    .await?
+                    .ok_or_else(|| {
+                        bad_demo(format!(
+                            "cycle {}: unknown formulation {}",
+                            c.name, l.formulation
+                        ))
+                    })?;
+                let container_id = containers
+                    .iter()
+                    .find(|k| k.name.eq_ignore_ascii_case(&l.container))
+                    .map(|k| k.id)
+                    .ok_or_else(|| {
+                        bad_demo(format!(
+                            "cycle {}: unknown container {}",
+                            c.name, l.container
+                        ))
+                    })?;
+                self.create_link(
+                    id,
+                    &LinkDraft {
+                        formulation_id,
+                        container_id,
+                        fill_volume_ml: l.fill_volume_ml,
+                    },
+                )
+                .await?;
             }
         }
         Ok(report)

@@ -14,7 +14,9 @@ use serde::Deserialize;
 
 use super::formulations::{into_field_errors, unprocessable};
 use super::{fmt, parse_version, render, see_other};
-use crate::charts::{render_heatmap, render_line_chart, HeatmapChart, LineChart, RefLine, Series, SeriesStyle};
+use crate::charts::{
+    render_heatmap, render_line_chart, HeatmapChart, LineChart, RefLine, Series, SeriesStyle,
+};
 use crate::derive::{assess, Assessment};
 use crate::domain::*;
 use crate::{AppError, AppState};
@@ -32,11 +34,20 @@ pub fn router() -> Router<AppState> {
         .route("/cycles/{id}/links/{link}", get(link_detail))
         .route("/cycles/{id}/links/{link}/remove", post(remove_link))
         .route("/cycles/{id}/links/{link}/suggest", post(adopt_suggestion))
-        .route("/cycles/{id}/links/{link}/design-space", get(design_space_page))
-        .route("/cycles/{id}/links/{link}/temperatures.svg", get(temperatures_svg))
+        .route(
+            "/cycles/{id}/links/{link}/design-space",
+            get(design_space_page),
+        )
+        .route(
+            "/cycles/{id}/links/{link}/temperatures.svg",
+            get(temperatures_svg),
+        )
         .route("/cycles/{id}/links/{link}/layer.svg", get(layer_svg))
         .route("/cycles/{id}/links/{link}/rate.svg", get(rate_svg))
-        .route("/cycles/{id}/links/{link}/design-space.svg", get(design_space_svg))
+        .route(
+            "/cycles/{id}/links/{link}/design-space.svg",
+            get(design_space_svg),
+        )
 }
 
 /// The caution every page with a verdict carries.
@@ -122,7 +133,10 @@ struct ListQuery {
     archived: String,
 }
 
-async fn list(State(state): State<AppState>, Query(q): Query<ListQuery>) -> Result<Response, AppError> {
+async fn list(
+    State(state): State<AppState>,
+    Query(q): Query<ListQuery>,
+) -> Result<Response, AppError> {
     let show_archived = !q.archived.is_empty();
     let mut cycles = Vec::new();
     for c in state.store.list_cycles(show_archived).await? {
@@ -149,7 +163,13 @@ struct FormPage {
     units: &'static [&'static str],
 }
 
-fn form_page(heading: String, action: String, cancel: String, form: CycleForm, errors: FieldErrors) -> Response {
+fn form_page(
+    heading: String,
+    action: String,
+    cancel: String,
+    form: CycleForm,
+    errors: FieldErrors,
+) -> Response {
     render(FormPage {
         heading,
         action,
@@ -161,10 +181,19 @@ fn form_page(heading: String, action: String, cancel: String, form: CycleForm, e
 }
 
 async fn new_form() -> Response {
-    form_page("New candidate cycle".into(), "/cycles".into(), "/cycles".into(), CycleForm::starting_point(), FieldErrors::default())
+    form_page(
+        "New candidate cycle".into(),
+        "/cycles".into(),
+        "/cycles".into(),
+        CycleForm::starting_point(),
+        FieldErrors::default(),
+    )
 }
 
-async fn create(State(state): State<AppState>, Form(form): Form<CycleForm>) -> Result<Response, AppError> {
+async fn create(
+    State(state): State<AppState>,
+    Form(form): Form<CycleForm>,
+) -> Result<Response, AppError> {
     let result = match form.parse() {
         Ok(d) => state.store.create_cycle(&d).await,
         Err(e) => Err(AppError::Fields(e)),
@@ -181,7 +210,10 @@ async fn create(State(state): State<AppState>, Form(form): Form<CycleForm>) -> R
     }
 }
 
-async fn edit_form(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn edit_form(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     let c = state.store.get_cycle(id).await?;
     Ok(form_page(
         format!("Edit {}", c.name),
@@ -192,7 +224,11 @@ async fn edit_form(State(state): State<AppState>, Path(id): Path<i64>) -> Result
     ))
 }
 
-async fn update(State(state): State<AppState>, Path(id): Path<i64>, Form(form): Form<CycleForm>) -> Result<Response, AppError> {
+async fn update(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    Form(form): Form<CycleForm>,
+) -> Result<Response, AppError> {
     let result = match (form.parse(), parse_version(&form.version)) {
         (Ok(d), Ok(v)) => state.store.update_cycle(id, v, &d).await,
         (Err(e), _) => Err(AppError::Fields(e)),
@@ -226,7 +262,9 @@ async fn copy(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Resp
     let c = state.store.get_cycle(id).await?;
     let draft = CycleDraft {
         name: free_name(&state, &c.name).await?,
-        notes: format!("Copied from “{}”. {}", c.name, c.notes).trim().to_string(),
+        notes: format!("Copied from “{}”. {}", c.name, c.notes)
+            .trim()
+            .to_string(),
         program: c.program.clone(),
         sublimation_ceiling_kg_h_m2: c.sublimation_ceiling_kg_h_m2,
     };
@@ -234,19 +272,32 @@ async fn copy(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Resp
     for l in state.store.links_of_cycle(id).await? {
         state
             .store
-            .create_link(new_id, &LinkDraft { formulation_id: l.formulation_id, container_id: l.container_id, fill_volume_ml: l.fill_volume_ml })
+            .create_link(
+                new_id,
+                &LinkDraft {
+                    formulation_id: l.formulation_id,
+                    container_id: l.container_id,
+                    fill_volume_ml: l.fill_volume_ml,
+                },
+            )
             .await?;
     }
     Ok(see_other(&format!("/cycles/{new_id}/edit")))
 }
 
 async fn archive(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
-    state.store.set_cycle_status(id, CycleStatus::Archived).await?;
+    state
+        .store
+        .set_cycle_status(id, CycleStatus::Archived)
+        .await?;
     Ok(see_other(&format!("/cycles/{id}")))
 }
 
 async fn restore(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
-    state.store.set_cycle_status(id, CycleStatus::Candidate).await?;
+    state
+        .store
+        .set_cycle_status(id, CycleStatus::Candidate)
+        .await?;
     Ok(see_other(&format!("/cycles/{id}")))
 }
 
@@ -258,7 +309,12 @@ pub fn program_lines(c: &Cycle) -> Vec<(String, String)> {
     let h = |min: f64| format!("{} h", fmt::trim(min / 60.0));
     let mut rows = vec![(
         "Freezing".to_string(),
-        format!("at {} °C/min to {} °C, hold {}", fmt::trim(p.freezing.ramp_c_per_min), fmt::num1(p.freezing.hold_temp_c), h(p.freezing.hold_min)),
+        format!(
+            "at {} °C/min to {} °C, hold {}",
+            fmt::trim(p.freezing.ramp_c_per_min),
+            fmt::num1(p.freezing.hold_temp_c),
+            h(p.freezing.hold_min)
+        ),
     )];
     if let Some(a) = p.annealing {
         rows.push((
@@ -268,7 +324,9 @@ pub fn program_lines(c: &Cycle) -> Vec<(String, String)> {
                 fmt::num1(a.temp_c),
                 h(a.hold_min),
                 fmt::num1(p.freezing.hold_temp_c),
-                a.return_ramp_c_per_min.map(|r| format!(" at {} °C/min", fmt::trim(r))).unwrap_or_default()
+                a.return_ramp_c_per_min
+                    .map(|r| format!(" at {} °C/min", fmt::trim(r)))
+                    .unwrap_or_default()
             ),
         ));
     }
@@ -279,7 +337,9 @@ pub fn program_lines(c: &Cycle) -> Vec<(String, String)> {
             fmt::trim(p.primary.ramp_c_per_min),
             fmt::num1(p.primary.shelf_temp_c),
             fmt::trim(p.primary.chamber_pressure_mtorr),
-            fmt::num2(glasspoint_science::units::mtorr_to_pa(p.primary.chamber_pressure_mtorr)),
+            fmt::num2(glasspoint_science::units::mtorr_to_pa(
+                p.primary.chamber_pressure_mtorr
+            )),
             h(p.primary.hold_min)
         ),
     ));
@@ -297,7 +357,10 @@ pub fn program_lines(c: &Cycle) -> Vec<(String, String)> {
         rows.push(("Condenser".into(), format!("{} °C", fmt::num1(t))));
     }
     if let Some(c) = c.sublimation_ceiling_kg_h_m2 {
-        rows.push(("Equipment ceiling".into(), format!("{} kg/(h·m²) of shelf", fmt::trim(c))));
+        rows.push((
+            "Equipment ceiling".into(),
+            format!("{} kg/(h·m²) of shelf", fmt::trim(c)),
+        ));
     }
     rows
 }
@@ -322,7 +385,12 @@ struct LinkFormView {
     fill_volume_ml: String,
 }
 
-async fn detail_page(state: &AppState, id: i64, link_form: LinkFormView, errors: FieldErrors) -> Result<Response, AppError> {
+async fn detail_page(
+    state: &AppState,
+    id: i64,
+    link_form: LinkFormView,
+    errors: FieldErrors,
+) -> Result<Response, AppError> {
     let c = state.store.get_cycle(id).await?;
     let links = assess_all(state, state.store.links_of_cycle(id).await?).await?;
     let formulations = state
@@ -333,7 +401,13 @@ async fn detail_page(state: &AppState, id: i64, link_form: LinkFormView, errors:
         .into_iter()
         .map(|f| (f.id, format!("{} — {}", f.code, f.name)))
         .collect();
-    let containers = state.store.list_containers().await?.into_iter().map(|c| (c.id, c.name)).collect();
+    let containers = state
+        .store
+        .list_containers()
+        .await?
+        .into_iter()
+        .map(|c| (c.id, c.name))
+        .collect();
     Ok(render(DetailPage {
         program: program_lines(&c),
         c,
@@ -350,7 +424,11 @@ async fn detail(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Re
     detail_page(&state, id, LinkFormView::default(), FieldErrors::default()).await
 }
 
-async fn add_link(State(state): State<AppState>, Path(id): Path<i64>, Form(form): Form<LinkForm>) -> Result<Response, AppError> {
+async fn add_link(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    Form(form): Form<LinkForm>,
+) -> Result<Response, AppError> {
     // A blank fill takes the formulation's own target fill.
     let mut form = form;
     if form.fill_volume_ml.trim().is_empty() {
@@ -376,12 +454,17 @@ async fn add_link(State(state): State<AppState>, Path(id): Path<i64>, Form(form)
                 container_id: form.container_id,
                 fill_volume_ml: form.fill_volume_ml,
             };
-            detail_page(&state, id, view, errors).await.map(unprocessable)
+            detail_page(&state, id, view, errors)
+                .await
+                .map(unprocessable)
         }
     }
 }
 
-async fn remove_link(State(state): State<AppState>, Path((id, link)): Path<(i64, i64)>) -> Result<Response, AppError> {
+async fn remove_link(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
     state.store.delete_link(id, link).await?;
     Ok(see_other(&format!("/cycles/{id}")))
 }
@@ -407,7 +490,12 @@ fn check_views(v: &CycleVerdict) -> Vec<CheckView> {
         .iter()
         .map(|c| {
             let (state, class) = state_label(c.state);
-            CheckView { topic: topic_label(c.topic), state, class, message: c.message.clone() }
+            CheckView {
+                topic: topic_label(c.topic),
+                state,
+                class,
+                message: c.message.clone(),
+            }
         })
         .collect()
 }
@@ -428,9 +516,29 @@ struct LinkPage {
 
 fn simulation_facts(a: &Assessment) -> Vec<(String, String)> {
     let mut rows = vec![
-        ("Formulation".to_string(), format!("{} — {}", a.formulation.code, a.formulation.name)),
-        ("Container and fill".into(), format!("{}, {} mL", a.container.name, fmt::trim(a.link.fill_volume_ml))),
-        ("Solids".into(), format!("{} mg/mL ({} of the solution mass)", fmt::num1(a.formulation.solids_mg_ml), fmt::percent(a.formulation.solids_mass_fraction(crate::derive::SOLUTION_DENSITY_G_ML)))),
+        (
+            "Formulation".to_string(),
+            format!("{} — {}", a.formulation.code, a.formulation.name),
+        ),
+        (
+            "Container and fill".into(),
+            format!(
+                "{}, {} mL",
+                a.container.name,
+                fmt::trim(a.link.fill_volume_ml)
+            ),
+        ),
+        (
+            "Solids".into(),
+            format!(
+                "{} mg/mL ({} of the solution mass)",
+                fmt::num1(a.formulation.solids_mg_ml),
+                fmt::percent(
+                    a.formulation
+                        .solids_mass_fraction(crate::derive::SOLUTION_DENSITY_G_ML)
+                )
+            ),
+        ),
         (
             "Dry-layer resistance".into(),
             format!(
@@ -438,26 +546,66 @@ fn simulation_facts(a: &Assessment) -> Vec<(String, String)> {
                 fmt::trim(a.resistance.resistance.r0_cm2_torr_h_g),
                 fmt::trim(a.resistance.resistance.a1_cm_torr_h_g),
                 fmt::trim(a.resistance.resistance.a2_per_cm),
-                if a.resistance.measured { "measured: " } else { "stated default: " },
+                if a.resistance.measured {
+                    "measured: "
+                } else {
+                    "stated default: "
+                },
                 a.resistance.source
             ),
         ),
         (
             "Maximum product temperature".into(),
-            a.derived.max_product_temp_c().map(|t| format!("{} °C", fmt::num1(t))).unwrap_or_else(|| "not derived yet".into()),
+            a.derived
+                .max_product_temp_c()
+                .map(|t| format!("{} °C", fmt::num1(t)))
+                .unwrap_or_else(|| "not derived yet".into()),
         ),
     ];
     if let Some(s) = &a.simulation {
-        rows.push(("Kv at the chamber pressure".into(), format!("{} W/(m²·K)", fmt::num1(s.kv_w_m2k))));
-        rows.push(("Ice height".into(), format!("{} cm ({} g)", fmt::num2(s.ice_height_cm), fmt::num2(s.ice_mass_g))));
-        rows.push(("Predicted primary drying".into(), format!("{} h", fmt::num1(s.summary.drying_time_h))));
-        rows.push(("Peak front temperature".into(), format!("{} °C at {} h", fmt::num1(s.summary.peak_front_temp_c), fmt::num1(s.summary.peak_front_time_h))));
-        rows.push(("Peak bottom temperature".into(), format!("{} °C", fmt::num1(s.summary.peak_bottom_temp_c))));
-        rows.push(("Initial sublimation rate".into(), format!("{} g/h per vial", fmt::num2(s.summary.initial_sublimation_rate_g_h))));
+        rows.push((
+            "Kv at the chamber pressure".into(),
+            format!("{} W/(m²·K)", fmt::num1(s.kv_w_m2k)),
+        ));
+        rows.push((
+            "Ice height".into(),
+            format!(
+                "{} cm ({} g)",
+                fmt::num2(s.ice_height_cm),
+                fmt::num2(s.ice_mass_g)
+            ),
+        ));
+        rows.push((
+            "Predicted primary drying".into(),
+            format!("{} h", fmt::num1(s.summary.drying_time_h)),
+        ));
+        rows.push((
+            "Peak front temperature".into(),
+            format!(
+                "{} °C at {} h",
+                fmt::num1(s.summary.peak_front_temp_c),
+                fmt::num1(s.summary.peak_front_time_h)
+            ),
+        ));
+        rows.push((
+            "Peak bottom temperature".into(),
+            format!("{} °C", fmt::num1(s.summary.peak_bottom_temp_c)),
+        ));
+        rows.push((
+            "Initial sublimation rate".into(),
+            format!(
+                "{} g/h per vial",
+                fmt::num2(s.summary.initial_sublimation_rate_g_h)
+            ),
+        ));
         if let Some(h) = s.summary.limit_exceeded_h.filter(|h| *h > 0.0) {
             rows.push((
                 "Above the limit".into(),
-                format!("{} h in all, first at {} h", fmt::num1(h), fmt::opt1(s.summary.limit_first_exceeded_h)),
+                format!(
+                    "{} h in all, first at {} h",
+                    fmt::num1(h),
+                    fmt::opt1(s.summary.limit_first_exceeded_h)
+                ),
             ));
         }
         for n in &s.notes {
@@ -468,7 +616,9 @@ fn simulation_facts(a: &Assessment) -> Vec<(String, String)> {
 }
 
 fn suggestion_for(a: &Assessment) -> Result<glasspoint_science::suggest::Suggestion, String> {
-    let limit = a.derived.max_product_temp_c().ok_or("no maximum product temperature is derived yet, so no faster cycle can be searched for")?;
+    let limit = a.derived.max_product_temp_c().ok_or(
+        "no maximum product temperature is derived yet, so no faster cycle can be searched for",
+    )?;
     suggest(&SuggestInput {
         base: a.base.clone(),
         max_product_temp_c: limit,
@@ -480,7 +630,10 @@ fn suggestion_for(a: &Assessment) -> Result<glasspoint_science::suggest::Suggest
     .map_err(|e| format!("{}: {}", e.field, e.message))
 }
 
-async fn link_detail(State(state): State<AppState>, Path((id, link)): Path<(i64, i64)>) -> Result<Response, AppError> {
+async fn link_detail(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
     let a = link_of(&state, id, link).await?;
     let (overall, overall_class, checks, verdict_error) = match &a.verdict {
         Ok(v) => {
@@ -501,7 +654,11 @@ async fn link_detail(State(state): State<AppState>, Path((id, link)): Path<(i64,
             if let Some(sim) = &a.simulation {
                 let saved = sim.summary.drying_time_h - s.drying_time_h;
                 if saved > 0.05 {
-                    lines.push(format!("That is {} h shorter than this cycle's predicted {} h.", fmt::num1(saved), fmt::num1(sim.summary.drying_time_h)));
+                    lines.push(format!(
+                        "That is {} h shorter than this cycle's predicted {} h.",
+                        fmt::num1(saved),
+                        fmt::num1(sim.summary.drying_time_h)
+                    ));
                 }
             }
             lines.extend(s.reasoning.iter().cloned());
@@ -525,13 +682,17 @@ async fn link_detail(State(state): State<AppState>, Path((id, link)): Path<(i64,
 /// Offers the suggestion as a new candidate cycle: this cycle with the suggested primary
 /// shelf temperature and pressure, and a primary hold of the predicted time plus the
 /// safety share, linked to the same formulation, container and fill.
-async fn adopt_suggestion(State(state): State<AppState>, Path((id, link)): Path<(i64, i64)>) -> Result<Response, AppError> {
+async fn adopt_suggestion(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
     let a = link_of(&state, id, link).await?;
     let s = suggestion_for(&a).map_err(|e| AppError::input("suggestion", e))?;
     let mut program = a.cycle.program.clone();
     program.primary.shelf_temp_c = (s.shelf_temp_c * 2.0).floor() / 2.0;
     program.primary.chamber_pressure_mtorr = s.chamber_pressure_mtorr.round();
-    let hold_h = (s.drying_time_h * (1.0 + glasspoint_science::verdict::DEFAULT_SAFETY_FACTOR)).ceil();
+    let hold_h =
+        (s.drying_time_h * (1.0 + glasspoint_science::verdict::DEFAULT_SAFETY_FACTOR)).ceil();
     program.primary.hold_min = hold_h * 60.0;
     let draft = CycleDraft {
         name: free_name(&state, &format!("{} faster for {}", a.cycle.name, a.formulation.code)).await?,
@@ -545,7 +706,14 @@ async fn adopt_suggestion(State(state): State<AppState>, Path((id, link)): Path<
     let new_id = state.store.create_cycle(&draft).await?;
     state
         .store
-        .create_link(new_id, &LinkDraft { formulation_id: a.formulation.id, container_id: a.container.id, fill_volume_ml: a.link.fill_volume_ml })
+        .create_link(
+            new_id,
+            &LinkDraft {
+                formulation_id: a.formulation.id,
+                container_id: a.container.id,
+                fill_volume_ml: a.link.fill_volume_ml,
+            },
+        )
         .await?;
     Ok(see_other(&format!("/cycles/{new_id}")))
 }
@@ -559,27 +727,55 @@ fn svg(result: Result<String, crate::charts::ChartError>) -> Response {
     }
 }
 
-fn series_of(a: &Assessment, pick: fn(&glasspoint_science::drying::SeriesPoint) -> f64) -> Vec<(f64, f64)> {
+fn series_of(
+    a: &Assessment,
+    pick: fn(&glasspoint_science::drying::SeriesPoint) -> f64,
+) -> Vec<(f64, f64)> {
     a.simulation
         .as_ref()
         .map(|s| s.series.iter().map(|p| (p.time_h, pick(p))).collect())
         .unwrap_or_default()
 }
 
-async fn temperatures_svg(State(state): State<AppState>, Path((id, link)): Path<(i64, i64)>) -> Result<Response, AppError> {
+async fn temperatures_svg(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
     let a = link_of(&state, id, link).await?;
     let mut hlines = Vec::new();
     if let Some(t) = a.derived.max_product_temp_c() {
-        hlines.push(RefLine { label: format!("limit {} °C", fmt::num1(t)), value: t, color: Some(5) });
+        hlines.push(RefLine {
+            label: format!("limit {} °C", fmt::num1(t)),
+            value: t,
+            color: Some(5),
+        });
     }
     let chart = LineChart {
-        title: format!("{} on {}: temperatures in primary drying", a.formulation.code, a.cycle.name),
+        title: format!(
+            "{} on {}: temperatures in primary drying",
+            a.formulation.code, a.cycle.name
+        ),
         x_label: "time (h)".into(),
         y_label: "temperature (°C)".into(),
         series: vec![
-            Series { name: "shelf".into(), points: series_of(&a, |p| p.shelf_temp_c), style: SeriesStyle::DashedLine, color: Some(0) },
-            Series { name: "sublimation front".into(), points: series_of(&a, |p| p.front_temp_c), style: SeriesStyle::Line, color: Some(1) },
-            Series { name: "vial bottom".into(), points: series_of(&a, |p| p.bottom_temp_c), style: SeriesStyle::Line, color: Some(2) },
+            Series {
+                name: "shelf".into(),
+                points: series_of(&a, |p| p.shelf_temp_c),
+                style: SeriesStyle::DashedLine,
+                color: Some(0),
+            },
+            Series {
+                name: "sublimation front".into(),
+                points: series_of(&a, |p| p.front_temp_c),
+                style: SeriesStyle::Line,
+                color: Some(1),
+            },
+            Series {
+                name: "vial bottom".into(),
+                points: series_of(&a, |p| p.bottom_temp_c),
+                style: SeriesStyle::Line,
+                color: Some(2),
+            },
         ],
         hlines,
         ..LineChart::default()
@@ -587,25 +783,41 @@ async fn temperatures_svg(State(state): State<AppState>, Path((id, link)): Path<
     Ok(svg(render_line_chart(&chart)))
 }
 
-async fn layer_svg(State(state): State<AppState>, Path((id, link)): Path<(i64, i64)>) -> Result<Response, AppError> {
+async fn layer_svg(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
     let a = link_of(&state, id, link).await?;
     let chart = LineChart {
         title: format!("{}: dried-layer thickness", a.formulation.code),
         x_label: "time (h)".into(),
         y_label: "dried layer (cm)".into(),
-        series: vec![Series { name: "dried layer".into(), points: series_of(&a, |p| p.dried_layer_cm), style: SeriesStyle::Line, color: Some(3) }],
+        series: vec![Series {
+            name: "dried layer".into(),
+            points: series_of(&a, |p| p.dried_layer_cm),
+            style: SeriesStyle::Line,
+            color: Some(3),
+        }],
         ..LineChart::default()
     };
     Ok(svg(render_line_chart(&chart)))
 }
 
-async fn rate_svg(State(state): State<AppState>, Path((id, link)): Path<(i64, i64)>) -> Result<Response, AppError> {
+async fn rate_svg(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
     let a = link_of(&state, id, link).await?;
     let chart = LineChart {
         title: format!("{}: sublimation rate per vial", a.formulation.code),
         x_label: "time (h)".into(),
         y_label: "sublimation rate (g/h)".into(),
-        series: vec![Series { name: "sublimation rate".into(), points: series_of(&a, |p| p.sublimation_rate_g_h), style: SeriesStyle::Line, color: Some(4) }],
+        series: vec![Series {
+            name: "sublimation rate".into(),
+            points: series_of(&a, |p| p.sublimation_rate_g_h),
+            style: SeriesStyle::Line,
+            color: Some(4),
+        }],
         ..LineChart::default()
     };
     Ok(svg(render_line_chart(&chart)))
@@ -640,37 +852,60 @@ impl GridQuery {
         let mut num = |field: &str, raw: &str, default: f64| {
             crate::domain::fields::optional_number(&mut e, field, raw).unwrap_or(default)
         };
-        let shelf = (num("shelf_from", &self.shelf_from, -40.0), num("shelf_to", &self.shelf_to, 20.0));
-        let pressure = (num("pressure_from", &self.pressure_from, 50.0), num("pressure_to", &self.pressure_to, 300.0));
+        let shelf = (
+            num("shelf_from", &self.shelf_from, -40.0),
+            num("shelf_to", &self.shelf_to, 20.0),
+        );
+        let pressure = (
+            num("pressure_from", &self.pressure_from, 50.0),
+            num("pressure_to", &self.pressure_to, 300.0),
+        );
         let steps = num("steps", &self.steps, 25.0);
         if shelf.0 >= shelf.1 {
             e.add("shelf_to", "must be above the lowest shelf temperature");
         }
         if !(-80.0..=80.0).contains(&shelf.0) || !(-80.0..=80.0).contains(&shelf.1) {
-            e.add("shelf_from", "shelf temperatures must lie between −80 and 80 °C");
+            e.add(
+                "shelf_from",
+                "shelf temperatures must lie between −80 and 80 °C",
+            );
         }
         if pressure.0 >= pressure.1 {
             e.add("pressure_to", "must be above the lowest pressure");
         }
         if pressure.0 <= 0.0 || pressure.1 > 2000.0 {
-            e.add("pressure_from", "pressures must lie between 0 and 2000 mTorr");
+            e.add(
+                "pressure_from",
+                "pressures must lie between 0 and 2000 mTorr",
+            );
         }
         if !(2.0..=60.0).contains(&steps) || steps.fract() != 0.0 {
             e.add("steps", "must be a whole number from 2 to 60");
         }
-        e.into_result(Grid { shelf, pressure, steps: steps as usize })
+        e.into_result(Grid {
+            shelf,
+            pressure,
+            steps: steps as usize,
+        })
     }
 }
 
 fn spaced(range: (f64, f64), n: usize) -> Vec<f64> {
-    (0..n).map(|i| range.0 + (range.1 - range.0) * i as f64 / (n - 1) as f64).collect()
+    (0..n)
+        .map(|i| range.0 + (range.1 - range.0) * i as f64 / (n - 1) as f64)
+        .collect()
 }
 
-fn run_grid(a: &Assessment, grid: &Grid) -> Result<glasspoint_science::design_space::DesignSpace, AppError> {
-    let limit = a
-        .derived
-        .max_product_temp_c()
-        .ok_or_else(|| AppError::input("max_product_temp_c", "no maximum product temperature is derived for this formulation yet"))?;
+fn run_grid(
+    a: &Assessment,
+    grid: &Grid,
+) -> Result<glasspoint_science::design_space::DesignSpace, AppError> {
+    let limit = a.derived.max_product_temp_c().ok_or_else(|| {
+        AppError::input(
+            "max_product_temp_c",
+            "no maximum product temperature is derived for this formulation yet",
+        )
+    })?;
     Ok(design_space(&DesignSpaceInput {
         base: a.base.clone(),
         shelf_temps_c: spaced(grid.shelf, grid.steps),
@@ -733,22 +968,35 @@ async fn design_space_page(
     }))
 }
 
-fn boundary_rows(space: &glasspoint_science::design_space::DesignSpace) -> Vec<(String, String, String)> {
+fn boundary_rows(
+    space: &glasspoint_science::design_space::DesignSpace,
+) -> Vec<(String, String, String)> {
     space
         .boundary
         .iter()
         .map(|b| {
             let what = match b.state {
                 BoundaryState::Crosses => "peak reaches the limit here",
-                BoundaryState::BelowLimitAcrossRange => "within the limit across the whole shelf range",
+                BoundaryState::BelowLimitAcrossRange => {
+                    "within the limit across the whole shelf range"
+                }
                 BoundaryState::AboveLimitAcrossRange => "above the limit across the shelf range",
                 BoundaryState::NoSublimation => "nothing sublimes in this shelf range",
-                BoundaryState::SublimesOnlyAboveLimit => "ice sublimes only with the front above the limit",
+                BoundaryState::SublimesOnlyAboveLimit => {
+                    "ice sublimes only with the front above the limit"
+                }
             };
             (
                 fmt::trim(b.chamber_pressure_mtorr.round()),
-                b.shelf_temp_c.map(|t| format!("{} °C", fmt::num1(t))).unwrap_or_else(|| "—".into()),
-                format!("{what}{}", b.drying_time_h.map(|h| format!("; {} h", fmt::num1(h))).unwrap_or_default()),
+                b.shelf_temp_c
+                    .map(|t| format!("{} °C", fmt::num1(t)))
+                    .unwrap_or_else(|| "—".into()),
+                format!(
+                    "{what}{}",
+                    b.drying_time_h
+                        .map(|h| format!("; {} h", fmt::num1(h)))
+                        .unwrap_or_default()
+                ),
             )
         })
         .collect()
@@ -768,9 +1016,19 @@ async fn design_space_svg(
     let values = space
         .cells
         .iter()
-        .map(|c| if c.state == CellState::Dries { c.peak_front_temp_c } else { None })
+        .map(|c| {
+            if c.state == CellState::Dries {
+                c.peak_front_temp_c
+            } else {
+                None
+            }
+        })
         .collect();
-    let ok_mask = space.cells.iter().map(|c| c.within_limit && c.above_sublimation_ceiling != Some(true)).collect();
+    let ok_mask = space
+        .cells
+        .iter()
+        .map(|c| c.within_limit && c.above_sublimation_ceiling != Some(true))
+        .collect();
     let boundary = space
         .boundary
         .iter()
@@ -779,7 +1037,10 @@ async fn design_space_svg(
         .collect();
     let p = &a.cycle.program.primary;
     let chart = HeatmapChart {
-        title: format!("{} in {}: design space", a.formulation.code, a.container.name),
+        title: format!(
+            "{} in {}: design space",
+            a.formulation.code, a.container.name
+        ),
         x_label: "shelf temperature (°C)".into(),
         y_label: "chamber pressure (mTorr)".into(),
         x_values: shelves,
@@ -788,7 +1049,11 @@ async fn design_space_svg(
         value_label: "peak front temperature (°C)".into(),
         boundary,
         boundary_label: format!("peak = limit {} °C", fmt::num1(space.max_product_temp_c)),
-        marker: Some((p.shelf_temp_c, p.chamber_pressure_mtorr, a.cycle.name.clone())),
+        marker: Some((
+            p.shelf_temp_c,
+            p.chamber_pressure_mtorr,
+            a.cycle.name.clone(),
+        )),
         ok_mask,
         mask_label: "above the limit".into(),
         ..HeatmapChart::default()

@@ -49,7 +49,8 @@ pub fn basis_label(b: LimitBasis) -> &'static str {
 
 pub fn view(d: &Derived) -> DerivedView {
     let mut estimate_parts = Vec::new();
-    let (estimate_value, estimate_status, estimate_flagged, estimate_reasoning) = match &d.estimate {
+    let (estimate_value, estimate_status, estimate_flagged, estimate_reasoning) = match &d.estimate
+    {
         Some(e) => {
             for i in &e.included {
                 estimate_parts.push(format!(
@@ -60,10 +61,19 @@ pub fn view(d: &Derived) -> DerivedView {
                 ));
             }
             for x in &e.excluded_crystallizing {
-                estimate_parts.push(format!("{}: {} of the solids, expected to crystallize (left out)", x.name, percent(x.solid_fraction)));
+                estimate_parts.push(format!(
+                    "{}: {} of the solids, expected to crystallize (left out)",
+                    x.name,
+                    percent(x.solid_fraction)
+                ));
             }
             for m in &e.missing {
-                estimate_parts.push(format!("{}: {} of the solids, no library value ({})", m.name, percent(m.solid_fraction), m.lacks));
+                estimate_parts.push(format!(
+                    "{}: {} of the solids, no library value ({})",
+                    m.name,
+                    percent(m.solid_fraction),
+                    m.lacks
+                ));
             }
             let status = match e.status {
                 EstimateStatus::Estimated => "Estimated",
@@ -77,46 +87,85 @@ pub fn view(d: &Derived) -> DerivedView {
                 e.reasoning.clone(),
             )
         }
-        None => ("—".into(), "Not estimated".into(), false, d.estimate_note.iter().cloned().collect()),
+        None => (
+            "—".into(),
+            "Not estimated".into(),
+            false,
+            d.estimate_note.iter().cloned().collect(),
+        ),
     };
     let deviation = d
         .deviation_c
-        .map(|v| format!("{}{} °C (measured minus estimate)", if v > 0.0 { "+" } else { "" }, num1(v)))
+        .map(|v| {
+            format!(
+                "{}{} °C (measured minus estimate)",
+                if v > 0.0 { "+" } else { "" },
+                num1(v)
+            )
+        })
         .unwrap_or_else(|| "—".into());
 
-    let (has_limit, limit_value, critical, basis, margin, limit_flagged, limit_reasoning, alternative, alternative_caution) =
-        match &d.limit {
-            Some(l) => (
-                true,
-                c(l.max_product_temp_c),
-                c(l.critical_temp_c),
-                basis_label(l.basis).to_string(),
-                format!("{} °C", num1(l.margin_c)),
-                l.flagged,
-                l.reasoning.clone(),
-                l.alternative
-                    .as_ref()
-                    .map(|a| {
-                        format!(
-                            "Alternative: governed by {} at {}, margin {} °C → {}",
-                            basis_label(a.basis),
-                            c(a.critical_temp_c),
-                            num1(a.margin_c),
-                            c(a.max_product_temp_c)
-                        )
-                    })
-                    .unwrap_or_default(),
-                l.alternative.as_ref().map(|a| a.caution.clone()).unwrap_or_default(),
-            ),
-            None => (false, "—".into(), "—".into(), String::new(), String::new(), true, Vec::new(), String::new(), String::new()),
-        };
+    let (
+        has_limit,
+        limit_value,
+        critical,
+        basis,
+        margin,
+        limit_flagged,
+        limit_reasoning,
+        alternative,
+        alternative_caution,
+    ) = match &d.limit {
+        Some(l) => (
+            true,
+            c(l.max_product_temp_c),
+            c(l.critical_temp_c),
+            basis_label(l.basis).to_string(),
+            format!("{} °C", num1(l.margin_c)),
+            l.flagged,
+            l.reasoning.clone(),
+            l.alternative
+                .as_ref()
+                .map(|a| {
+                    format!(
+                        "Alternative: governed by {} at {}, margin {} °C → {}",
+                        basis_label(a.basis),
+                        c(a.critical_temp_c),
+                        num1(a.margin_c),
+                        c(a.max_product_temp_c)
+                    )
+                })
+                .unwrap_or_default(),
+            l.alternative
+                .as_ref()
+                .map(|a| a.caution.clone())
+                .unwrap_or_default(),
+        ),
+        None => (
+            false,
+            "—".into(),
+            "—".into(),
+            String::new(),
+            String::new(),
+            true,
+            Vec::new(),
+            String::new(),
+            String::new(),
+        ),
+    };
 
-    let (anneal_headline, anneal_class, anneal_details, anneal_reasoning, anneal_risks) = match &d.annealing {
+    let (anneal_headline, anneal_class, anneal_details, anneal_reasoning, anneal_risks) = match &d
+        .annealing
+    {
         Some(a) => {
             let headline = match (a.recommend, a.kind) {
-                (Recommendation::Anneal, Some(AnnealKind::CrystallizeBulkingAgent)) => "Anneal: crystallize the bulking agent",
+                (Recommendation::Anneal, Some(AnnealKind::CrystallizeBulkingAgent)) => {
+                    "Anneal: crystallize the bulking agent"
+                }
                 (Recommendation::Anneal, _) => "Anneal",
-                (Recommendation::Optional, Some(AnnealKind::IceRipening)) => "Optional: ice-ripening anneal",
+                (Recommendation::Optional, Some(AnnealKind::IceRipening)) => {
+                    "Optional: ice-ripening anneal"
+                }
                 (Recommendation::Optional, _) => "Optional",
                 (Recommendation::NotNeeded, _) => "No annealing needed",
             };
@@ -127,7 +176,8 @@ pub fn view(d: &Derived) -> DerivedView {
             };
             let mut details = Vec::new();
             if a.window_empty {
-                details.push("No temperature satisfies every bound: see the reasoning.".to_string());
+                details
+                    .push("No temperature satisfies every bound: see the reasoning.".to_string());
             } else if let (Some(lo), Some(hi)) = (a.window_low_c, a.window_high_c) {
                 details.push(format!("Window: {} to {}", c(lo), c(hi)));
             }
@@ -137,7 +187,13 @@ pub fn view(d: &Derived) -> DerivedView {
             if let Some([lo, hi]) = a.typical_hold_h {
                 details.push(format!("Typical hold: {} to {} h", num1(lo), num1(hi)));
             }
-            (headline.to_string(), class, details, a.reasoning.clone(), a.risks.clone())
+            (
+                headline.to_string(),
+                class,
+                details,
+                a.reasoning.clone(),
+                a.risks.clone(),
+            )
         }
         None => (
             "No advice".into(),

@@ -20,6 +20,10 @@ pub fn router() -> Router<AppState> {
         .route("/formulations/{id}/edit", get(edit_form))
         .route("/formulations/{id}/archive", post(archive))
         .route("/formulations/{id}/restore", post(restore))
+        .route(
+            "/formulations/{id}/resistance",
+            get(resistance_form).post(save_resistance),
+        )
 }
 
 pub const PER_PAGE: i64 = 25;
@@ -316,6 +320,8 @@ pub fn unprocessable(mut r: Response) -> Response {
 #[template(path = "formulations/detail.html")]
 struct DetailPage {
     f: Formulation,
+    cycles: Vec<super::cycles::LinkRow>,
+    resistance: DryLayerResistance,
     d: super::derived_view::DerivedView,
     margin_input: String,
     margin_error: String,
@@ -346,7 +352,12 @@ fn margin_from(raw: &str) -> (f64, String) {
                 glasspoint_science::limit::MAX_MARGIN_C
             ),
         ),
-        Err(_) => (default, format!("margin_c: “{text}” is not a number; the team default of {default} °C is shown")),
+        Err(_) => (
+            default,
+            format!(
+                "margin_c: “{text}” is not a number; the team default of {default} °C is shown"
+            ),
+        ),
     }
 }
 
@@ -360,6 +371,9 @@ async fn detail(
     let materials = state.store.list_materials().await?;
     let (margin_c, margin_error) = margin_from(&q.margin_c);
     let derived = crate::derive::derive(&f, &measurements, &materials, margin_c);
+    let cycles =
+        super::cycles::assess_all(&state, state.store.links_of_formulation(id).await?).await?;
+    let resistance = crate::derive::resistance_of(&state.store, &f).await?;
     let summaries = summarise(&measurements);
     let groups = MeasurementKind::ALL
         .iter()
@@ -389,6 +403,8 @@ async fn detail(
             q.margin_c.trim().to_string()
         },
         margin_error,
+        cycles,
+        resistance,
         f,
         updated,
         summaries,
@@ -457,4 +473,66 @@ async fn restore(State(state): State<AppState>, Path(id): Path<i64>) -> Result<R
         .set_formulation_status(id, FormulationStatus::Draft)
         .await?;
     Ok(see_other(&format!("/formulations/{id}")))
+}
+
+// ------------------------------------------------------------------ dry-layer resistance
+
+#[derive(Template)]
+#[template(path = "formulations/resistance.html")]
+struct ResistancePage {
+    f: Formulation,
+    current: DryLayerResistance,
+    form: ResistanceForm,
+    errors: FieldErrors,
+}
+
+async fn resistance_form(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
+    let f = state.store.get_formulation(id).await?;
+    let current = crate::derive::resistance_of(&state.store, &f).await?;
+    let form = if current.measured {
+        ResistanceForm {
+            r0_cm2_torr_h_g: current.resistance.r0_cm2_torr_h_g.to_string(),
+            a1_cm_torr_h_g: current.resistance.a1_cm_torr_h_g.to_string(),
+            a2_per_cm: current.resistance.a2_per_cm.to_string(),
+            source: current.source.clone(),
+            version: current.version.to_string(),
+        }
+    } else {
+        ResistanceForm::default()
+    };
+    Ok(render(ResistancePage {
+        f,
+        current,
+        form,
+        errors: FieldErrors::default(),
+    }))
+}
+
+async fn save_resistance(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    Form(form): Form<ResistanceForm>,
+) -> Result<Response, AppError> {
+    let f = state.store.get_formulation(id).await?;
+    let version = form.version.trim().parse::<i64>().ok();
+    let result = match form.parse() {
+        Ok((r, source)) => state.store.set_resistance(id, &r, &source, version).await,
+        Err(e) => Err(AppError::Fields(e)),
+    };
+    match result {
+        Ok(()) => Ok(see_other(&format!("/formulations/{id}"))),
+        Err(e) => {
+            let errors = into_field_errors(e)?;
+            let current = crate::derive::resistance_of(&state.store, &f).await?;
+            Ok(unprocessable(render(ResistancePage {
+                f,
+                current,
+                form,
+                errors,
+            })))
+        }
+    }
 }

@@ -1,6 +1,7 @@
 //! Server-rendered pages. Handlers are thin: extract, parse into domain types, call the
 //! store or the science, render.
 
+mod calculators;
 mod containers;
 mod cycles;
 mod derived_view;
@@ -37,6 +38,7 @@ pub fn router() -> Router<AppState> {
         .merge(materials::router())
         .merge(containers::router())
         .merge(cycles::router())
+        .merge(calculators::router())
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 

@@ -13,6 +13,7 @@ pub mod design_space;
 pub mod drying;
 pub mod error;
 pub mod fit;
+pub mod gauge;
 pub mod ice;
 pub mod limit;
 pub mod mixture;
