@@ -99,14 +99,21 @@ pub struct Derived {
     pub margin_c: f64,
     pub limit: Option<ProductLimit>,
     pub limit_note: Option<String>,
+    /// The team chose the Te-governed alternative for cycle checks (crystalline matrix).
+    pub uses_crystalline_limit: bool,
     pub annealing: Option<AnnealingAdvice>,
     pub annealing_note: Option<String>,
 }
 
 impl Derived {
-    /// The maximum allowable product temperature, if one could be derived.
+    /// The maximum allowable product temperature cycle checks use: the governing limit, or
+    /// the Te-governed alternative when the team chose it for a crystalline matrix.
     pub fn max_product_temp_c(&self) -> Option<f64> {
-        self.limit.as_ref().map(|l| l.max_product_temp_c)
+        let l = self.limit.as_ref()?;
+        match (&l.alternative, self.uses_crystalline_limit) {
+            (Some(alt), true) => Some(alt.max_product_temp_c),
+            _ => Some(l.max_product_temp_c),
+        }
     }
 
     /// The Tg′ that the cycle checks compare against: measured, else estimated.
@@ -272,6 +279,8 @@ pub fn derive(
         crystalline_matrix,
         crystalline_share,
         margin_c,
+        uses_crystalline_limit: f.use_crystalline_limit
+            && limit.as_ref().is_some_and(|l| l.alternative.is_some()),
         limit,
         limit_note,
         annealing,

@@ -427,6 +427,8 @@ pub struct Formulation {
     pub container_name: Option<String>,
     pub notes: String,
     pub tags: Vec<String>,
+    /// For a crystalline matrix: whether cycle checks use the Te-governed limit.
+    pub use_crystalline_limit: bool,
     pub version: i64,
     #[serde(with = "time::serde::rfc3339")]
     #[schema(value_type = String)]

@@ -55,6 +55,9 @@ struct DemoFormulation {
     tags: Vec<String>,
     components: Vec<DemoComponent>,
     measurements: Vec<DemoMeasurement>,
+    /// "crystalline" when the team checks cycles against the Te-governed limit.
+    #[serde(default)]
+    limit_basis: Option<String>,
 }
 
 #[derive(Deserialize)]
@@ -168,6 +171,9 @@ impl Store {
             };
             let id = self.create_formulation(&draft).await?;
             report.formulations += 1;
+            if f.limit_basis.as_deref() == Some("crystalline") {
+                self.set_limit_basis(id, true).await?;
+            }
             for m in f.measurements {
                 // Demo rows go through the same checks as typed ones.
                 let form = MeasurementForm {

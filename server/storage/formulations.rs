@@ -117,6 +117,7 @@ struct FormulationRow {
     container_name: Option<String>,
     notes: String,
     tags: String,
+    limit_basis: String,
     version: i64,
     created_at: OffsetDateTime,
     updated_at: OffsetDateTime,
@@ -341,7 +342,7 @@ impl Store {
         let row: Option<FormulationRow> = on_pool!(self, pool => {
             sqlx::query_as(
                 "SELECT f.id, f.code, f.name, f.project, f.status, f.ph, f.fill_volume_ml, f.container_id, \
-                 c.name AS container_name, f.notes, f.tags, f.version, f.created_at, f.updated_at \
+                 c.name AS container_name, f.notes, f.tags, f.limit_basis, f.version, f.created_at, f.updated_at \
                  FROM formulations f LEFT JOIN containers c ON c.id = f.container_id WHERE f.id = $1",
             )
             .bind(id)
@@ -373,6 +374,7 @@ impl Store {
                 .filter(|t| !t.is_empty())
                 .map(str::to_string)
                 .collect(),
+            use_crystalline_limit: r.limit_basis == "crystalline",
             version: r.version,
             created_at: r.created_at,
             updated_at: r.updated_at,
@@ -464,6 +466,29 @@ impl Store {
             tx.commit().await?;
             Ok(())
         })
+    }
+
+    /// Chooses which limit the formulation's cycle checks use (see `limit_basis`).
+    pub async fn set_limit_basis(&self, id: i64, crystalline: bool) -> Result<(), AppError> {
+        let at = now();
+        let basis = if crystalline {
+            "crystalline"
+        } else {
+            "amorphous"
+        };
+        let done = on_pool!(self, pool => {
+            sqlx::query("UPDATE formulations SET limit_basis = $1, version = version + 1, updated_at = $2 WHERE id = $3")
+                .bind(basis)
+                .bind(at)
+                .bind(id)
+                .execute(pool)
+                .await?
+                .rows_affected()
+        });
+        if done == 0 {
+            return Err(AppError::NotFound(format!("Formulation {id}")));
+        }
+        Ok(())
     }
 
     /// Archives a formulation: it leaves the default list but keeps every record.

@@ -44,6 +44,7 @@ pub fn router() -> Router<AppState> {
         )
         .route("/cycles/{id}/links/{link}/layer.svg", get(layer_svg))
         .route("/cycles/{id}/links/{link}/rate.svg", get(rate_svg))
+        .route("/cycles/{id}/links/{link}/gauges.svg", get(gauges_svg))
         .route(
             "/cycles/{id}/links/{link}/design-space.svg",
             get(design_space_svg),
@@ -511,7 +512,9 @@ struct LinkPage {
     facts: Vec<(String, String)>,
     suggestion: Vec<String>,
     suggestion_ok: bool,
+    guided_ok: bool,
     caution: &'static str,
+    gauge_caution: &'static str,
 }
 
 fn simulation_facts(a: &Assessment) -> Vec<(String, String)> {
@@ -642,15 +645,24 @@ async fn link_detail(
         }
         Err(e) => ("not checked", "verdict-fails", Vec::new(), e.clone()),
     };
+    let guided_ok = suggestion_for(&a).is_ok_and(|s| s.at_tang_pikal_pressure.is_some());
     let (suggestion, suggestion_ok) = match suggestion_for(&a) {
         Ok(s) => {
             let mut lines = vec![format!(
-                "Shelf {} °C at {} mTorr: primary drying about {} h with the front peaking at {} °C.",
+                "Fastest in range: shelf {} °C at {} mTorr, primary drying about {} h with the front peaking at {} °C.",
                 fmt::num1(s.shelf_temp_c),
                 fmt::trim((s.chamber_pressure_mtorr).round()),
                 fmt::num1(s.drying_time_h),
                 fmt::num1(s.peak_front_temp_c)
             )];
+            if let Some(g) = &s.at_tang_pikal_pressure {
+                lines.push(format!(
+                    "At the guided pressure of {} mTorr (Tang & Pikal 2004): shelf {} °C, about {} h.",
+                    fmt::trim(g.chamber_pressure_mtorr.round()),
+                    fmt::num1(g.shelf_temp_c),
+                    fmt::num1(g.drying_time_h)
+                ));
+            }
             if let Some(sim) = &a.simulation {
                 let saved = sim.summary.drying_time_h - s.drying_time_h;
                 if saved > 0.05 {
@@ -674,8 +686,10 @@ async fn link_detail(
         facts: simulation_facts(&a),
         suggestion,
         suggestion_ok,
+        guided_ok,
         a,
         caution: caution(),
+        gauge_caution: glasspoint_science::gauge::caution(),
     }))
 }
 
@@ -818,6 +832,64 @@ async fn rate_svg(
             style: SeriesStyle::Line,
             color: Some(4),
         }],
+        ..LineChart::default()
+    };
+    Ok(svg(render_line_chart(&chart)))
+}
+
+/// What a Pirani gauge would read beside the capacitance manometer, and where the two
+/// meet: the usual sign that primary drying has ended.
+async fn gauges_svg(
+    State(state): State<AppState>,
+    Path((id, link)): Path<(i64, i64)>,
+) -> Result<Response, AppError> {
+    use glasspoint_science::gauge::{
+        end_of_primary_drying_h, pirani_trace, DEFAULT_TOLERANCE_SHARE,
+        DEFAULT_WATER_FRACTION_AT_PEAK,
+    };
+    let a = link_of(&state, id, link).await?;
+    let pc = a.cycle.program.primary.chamber_pressure_mtorr;
+    let (trace, end) = match &a.simulation {
+        Some(sim) => {
+            let trace = pirani_trace(sim, pc, DEFAULT_WATER_FRACTION_AT_PEAK)?;
+            let end = end_of_primary_drying_h(&trace, DEFAULT_TOLERANCE_SHARE)?;
+            (trace, end)
+        }
+        None => (Vec::new(), None),
+    };
+    let chart = LineChart {
+        title: format!(
+            "{}: pressure gauges in primary drying (estimated)",
+            a.formulation.code
+        ),
+        x_label: "time (h)".into(),
+        y_label: "reading (mTorr)".into(),
+        series: vec![
+            Series {
+                name: "capacitance manometer".into(),
+                points: trace
+                    .iter()
+                    .map(|p| (p.time_h, p.manometer_mtorr))
+                    .collect(),
+                style: SeriesStyle::Line,
+                color: Some(0),
+            },
+            Series {
+                name: "Pirani (nitrogen calibration)".into(),
+                points: trace.iter().map(|p| (p.time_h, p.pirani_mtorr)).collect(),
+                style: SeriesStyle::Line,
+                color: Some(1),
+            },
+        ],
+        vlines: end
+            .map(|t| {
+                vec![RefLine {
+                    label: format!("readings meet: {} h", fmt::num1(t)),
+                    value: t,
+                    color: Some(2),
+                }]
+            })
+            .unwrap_or_default(),
         ..LineChart::default()
     };
     Ok(svg(render_line_chart(&chart)))

@@ -64,11 +64,11 @@ mod tests {
 
     #[test]
     fn negative_values_use_a_true_minus_sign() {
-        assert_eq!(num1(&-32.04), "−32.0");
+        assert_eq!(num1(-32.04), "−32.0");
     }
 
     #[test]
     fn missing_values_show_a_dash() {
-        assert_eq!(opt1(&None), "—");
+        assert_eq!(opt1(None), "—");
     }
 }

@@ -536,3 +536,29 @@ async fn save_resistance(
         }
     }
 }
+
+#[derive(Deserialize)]
+struct LimitBasisForm {
+    #[serde(default)]
+    basis: String,
+}
+
+/// Chooses which limit the cycle checks use for a crystalline matrix.
+async fn set_limit_basis(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    Form(form): Form<LimitBasisForm>,
+) -> Result<Response, AppError> {
+    let crystalline = match form.basis.as_str() {
+        "crystalline" => true,
+        "amorphous" => false,
+        other => {
+            return Err(AppError::input(
+                "basis",
+                format!("“{other}” is not one of: amorphous, crystalline"),
+            ))
+        }
+    };
+    state.store.set_limit_basis(id, crystalline).await?;
+    Ok(see_other(&format!("/formulations/{id}")))
+}
