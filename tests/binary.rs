@@ -53,7 +53,7 @@ fn serve_on_a_free_port_answers_healthz() {
     assert!(reply.starts_with("HTTP/1.1 200"), "{reply}");
 }
 
-fn calc(topic: &str, input: &str) -> (i32, String, String) {
+pub fn calc(topic: &str, input: &str) -> (i32, String, String) {
     let mut child = Command::new(binary())
         .args(["calc", topic])
         .stdin(Stdio::piped())

@@ -6,5 +6,8 @@ mod helpers;
 
 mod api;
 mod binary;
+mod calc;
+mod cycles;
 mod pages;
+mod science_pages;
 mod storage;

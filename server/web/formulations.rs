@@ -24,6 +24,7 @@ pub fn router() -> Router<AppState> {
             "/formulations/{id}/resistance",
             get(resistance_form).post(save_resistance),
         )
+        .route("/formulations/{id}/limit-basis", post(set_limit_basis))
 }
 
 pub const PER_PAGE: i64 = 25;
