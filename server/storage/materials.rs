@@ -74,6 +74,25 @@ fn to_material(
     })
 }
 
+/// Inserts one property row of material `$id` inside transaction `$tx`.
+macro_rules! insert_property {
+    ($tx:ident, $id:expr, $p:expr) => {
+        sqlx::query(
+            "INSERT INTO material_properties (material_id, kind, value, convention, source_kind, citation, measurement_ids) \
+             VALUES ($1, $2, $3, $4, $5, $6, $7)",
+        )
+        .bind($id)
+        .bind($p.kind.code())
+        .bind($p.value)
+        .bind(&$p.convention)
+        .bind($p.source_kind.code())
+        .bind(&$p.citation)
+        .bind(join_ids(&$p.measurement_ids))
+        .execute(&mut *$tx)
+        .await?;
+    };
+}
+
 impl Store {
     /// Every material, by name, with its properties.
     pub async fn list_materials(&self) -> Result<Vec<Material>, AppError> {
@@ -146,19 +165,7 @@ impl Store {
             .await
             .map_err(|e| on_constraint(e, "name", "a material with this name already exists"))?;
             for p in &draft.properties {
-                sqlx::query(
-                    "INSERT INTO material_properties (material_id, kind, value, convention, source_kind, citation, measurement_ids) \
-                     VALUES ($1, $2, $3, $4, $5, $6, $7)",
-                )
-                .bind(id)
-                .bind(p.kind.code())
-                .bind(p.value)
-                .bind(&p.convention)
-                .bind(p.source_kind.code())
-                .bind(&p.citation)
-                .bind(join_ids(&p.measurement_ids))
-                .execute(&mut *tx)
-                .await?;
+                insert_property!(tx, id, p);
             }
             tx.commit().await?;
             Ok(id)
@@ -198,19 +205,7 @@ impl Store {
                 .execute(&mut *tx)
                 .await?;
             for p in &draft.properties {
-                sqlx::query(
-                    "INSERT INTO material_properties (material_id, kind, value, convention, source_kind, citation, measurement_ids) \
-                     VALUES ($1, $2, $3, $4, $5, $6, $7)",
-                )
-                .bind(id)
-                .bind(p.kind.code())
-                .bind(p.value)
-                .bind(&p.convention)
-                .bind(p.source_kind.code())
-                .bind(&p.citation)
-                .bind(join_ids(&p.measurement_ids))
-                .execute(&mut *tx)
-                .await?;
+                insert_property!(tx, id, p);
             }
             tx.commit().await?;
             Ok(())
@@ -241,19 +236,7 @@ impl Store {
                 .bind(property.kind.code())
                 .execute(&mut *tx)
                 .await?;
-            sqlx::query(
-                "INSERT INTO material_properties (material_id, kind, value, convention, source_kind, citation, measurement_ids) \
-                 VALUES ($1, $2, $3, $4, $5, $6, $7)",
-            )
-            .bind(material_id)
-            .bind(property.kind.code())
-            .bind(property.value)
-            .bind(&property.convention)
-            .bind(property.source_kind.code())
-            .bind(&property.citation)
-            .bind(join_ids(&property.measurement_ids))
-            .execute(&mut *tx)
-            .await?;
+            insert_property!(tx, material_id, property);
             tx.commit().await?;
             Ok(())
         })

@@ -15,7 +15,7 @@ use glasspoint_science::fit::{
 use glasspoint_science::mixture::{binary_sweep, mixture_tg, MixtureComponent, MixtureMethod};
 use serde::Deserialize;
 
-use super::{fmt, render, see_other};
+use super::{fmt, render, see_other, svg};
 use crate::charts::{render_line_chart, LineChart, RefLine, Series, SeriesStyle};
 use crate::domain::fields::optional_number;
 use crate::domain::*;
@@ -567,13 +567,6 @@ fn cake_field(e: glasspoint_science::InputError) -> FieldError {
         e.field
     };
     FieldError::new(field, e.message)
-}
-
-fn svg(result: Result<String, crate::charts::ChartError>) -> Response {
-    match result {
-        Ok(body) => ([(header::CONTENT_TYPE, "image/svg+xml")], body).into_response(),
-        Err(e) => AppError::Internal(format!("chart: {e}")).into_response(),
-    }
 }
 
 async fn mixture_svg(

@@ -13,7 +13,7 @@ use glasspoint_science::verdict::{CheckState, CheckTopic, CycleVerdict};
 use serde::Deserialize;
 
 use super::formulations::{into_field_errors, unprocessable};
-use super::{fmt, parse_version, render, see_other};
+use super::{fmt, parse_version, render, see_other, svg};
 use crate::charts::{
     render_heatmap, render_line_chart, HeatmapChart, LineChart, RefLine, Series, SeriesStyle,
 };
@@ -645,8 +645,11 @@ async fn link_detail(
         }
         Err(e) => ("not checked", "verdict-fails", Vec::new(), e.clone()),
     };
-    let guided_ok = suggestion_for(&a).is_ok_and(|s| s.at_tang_pikal_pressure.is_some());
-    let (suggestion, suggestion_ok) = match suggestion_for(&a) {
+    let found = suggestion_for(&a);
+    let guided_ok = found
+        .as_ref()
+        .is_ok_and(|s| s.at_tang_pikal_pressure.is_some());
+    let (suggestion, suggestion_ok) = match found {
         Ok(s) => {
             let mut lines = vec![format!(
                 "Fastest in range: shelf {} °C at {} mTorr, primary drying about {} h with the front peaking at {} °C.",
@@ -733,13 +736,6 @@ async fn adopt_suggestion(
 }
 
 // ------------------------------------------------------------------ charts
-
-fn svg(result: Result<String, crate::charts::ChartError>) -> Response {
-    match result {
-        Ok(body) => ([(header::CONTENT_TYPE, "image/svg+xml")], body).into_response(),
-        Err(e) => AppError::Internal(format!("chart: {e}")).into_response(),
-    }
-}
 
 fn series_of(
     a: &Assessment,

@@ -143,6 +143,14 @@ pub fn options<T: Copy>(
     all.iter().map(|v| (code(*v), label(*v))).collect()
 }
 
+/// A chart answered as an SVG image (charts escape every text they draw).
+pub fn svg(result: Result<String, crate::charts::ChartError>) -> Response {
+    match result {
+        Ok(body) => ([(header::CONTENT_TYPE, "image/svg+xml")], body).into_response(),
+        Err(e) => AppError::Internal(format!("chart: {e}")).into_response(),
+    }
+}
+
 /// The hidden `version` field of an edit form.
 pub fn parse_version(raw: &str) -> Result<i64, AppError> {
     raw.trim().parse().map_err(|_| {
