@@ -4,8 +4,7 @@
 
 use askama::Template;
 use axum::extract::{Query, State};
-use axum::http::header;
-use axum::response::{IntoResponse, Response};
+use axum::response::Response;
 use axum::routing::{get, post};
 use axum::{Form, Router};
 use glasspoint_science::cake::{cake_moisture_limit, cake_tg_curve, CakeMoistureLimitInput};
