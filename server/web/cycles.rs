@@ -3,7 +3,7 @@
 
 use askama::Template;
 use axum::extract::{Path, Query, State};
-use axum::response::{IntoResponse, Response};
+use axum::response::Response;
 use axum::routing::{get, post};
 use axum::{Form, Router};
 use glasspoint_science::design_space::{design_space, BoundaryState, CellState, DesignSpaceInput};
