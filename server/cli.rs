@@ -37,9 +37,12 @@ enum Command {
         bind: SocketAddr,
         #[command(flatten)]
         db: DatabaseArg,
-        /// Load the demo scenario if the database holds no formulations yet.
+        /// Load the demo scenario (records already present are left alone).
         #[arg(long)]
         demo: bool,
+        /// The team's safety margin below the critical temperature, °C (0 to 20).
+        #[arg(long, env = "GLASSPOINT_MARGIN_C", default_value_t = glasspoint_science::limit::DEFAULT_MARGIN_C)]
+        margin_c: f64,
     },
     /// Apply pending database migrations (and install the shipped library on first run).
     Migrate {
@@ -83,7 +86,7 @@ pub async fn main() -> ExitCode {
 
 fn init_tracing() {
     let filter = tracing_subscriber::EnvFilter::try_from_default_env()
-        .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("info"));
+        .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("info,sqlx::postgres::notice=warn"));
     let _ = tracing_subscriber::fmt()
         .with_env_filter(filter)
         .with_writer(std::io::stderr)
@@ -99,7 +102,21 @@ async fn open(db: DatabaseArg) -> Result<(Store, String), AppError> {
 
 async fn run(command: Command) -> Result<ExitCode, AppError> {
     match command {
-        Command::Serve { bind, db, demo } => {
+        Command::Serve {
+            bind,
+            db,
+            demo,
+            margin_c,
+        } => {
+            if !(0.0..=glasspoint_science::limit::MAX_MARGIN_C).contains(&margin_c) {
+                return Err(AppError::input(
+                    "--margin-c",
+                    format!(
+                        "must lie between 0 and {} °C",
+                        glasspoint_science::limit::MAX_MARGIN_C
+                    ),
+                ));
+            }
             let given = db.database.is_some();
             let (store, url) = open(db).await?;
             if !given {
@@ -117,6 +134,7 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             }
             let mut config = Config::for_database(url);
             config.bind = bind;
+            config.margin_c = margin_c;
             serve(store, config).await?;
             Ok(ExitCode::SUCCESS)
         }

@@ -14,6 +14,8 @@ pub struct Config {
     pub bind: SocketAddr,
     pub body_limit_bytes: usize,
     pub request_timeout_s: u64,
+    /// The team's safety margin below the critical temperature, °C.
+    pub margin_c: f64,
 }
 
 impl Config {
@@ -24,6 +26,7 @@ impl Config {
             bind: DEFAULT_BIND.parse().expect("default bind address is valid"),
             body_limit_bytes: DEFAULT_BODY_LIMIT,
             request_timeout_s: 30,
+            margin_c: glasspoint_science::limit::DEFAULT_MARGIN_C,
         }
     }
 }

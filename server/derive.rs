@@ -24,9 +24,6 @@ pub const CRYSTALLINE_MATRIX_SHARE: f64 = 0.5;
 /// (common practice, no source).
 pub const MIN_CRYSTALLIZING_SHARE: f64 = 0.1;
 
-/// The team's default safety margin below the critical temperature, °C.
-pub const DEFAULT_MARGIN_C: f64 = glasspoint_science::limit::DEFAULT_MARGIN_C;
-
 fn behaviour(b: FreezingBehaviour) -> ScienceBehaviour {
     match b {
         FreezingBehaviour::Amorphous => ScienceBehaviour::Amorphous,
@@ -383,13 +380,13 @@ pub struct Assessment {
 
 /// Assesses a link: derives the formulation's limit, simulates the cycle's primary drying
 /// and runs every check.
-pub async fn assess(store: &Store, link: CycleLink) -> Result<Assessment, AppError> {
+pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Assessment, AppError> {
     let cycle = store.get_cycle(link.cycle_id).await?;
     let formulation = store.get_formulation(link.formulation_id).await?;
     let container = store.get_container(link.container_id).await?;
     let measurements = store.measurements_of(formulation.id).await?;
     let materials = store.list_materials().await?;
-    let derived = derive(&formulation, &measurements, &materials, DEFAULT_MARGIN_C);
+    let derived = derive(&formulation, &measurements, &materials, margin_c);
     let resistance = resistance_of(store, &formulation).await?;
     let base = drying_base(
         &formulation,

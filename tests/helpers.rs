@@ -39,9 +39,18 @@ impl TestApp {
         dir: Option<tempfile::TempDir>,
         pg: Option<(String, String)>,
     ) -> TestApp {
+        Self::build_with(store, dir, pg, Config::for_database("test"))
+    }
+
+    fn build_with(
+        store: Store,
+        dir: Option<tempfile::TempDir>,
+        pg: Option<(String, String)>,
+        config: Config,
+    ) -> TestApp {
         let state = AppState {
             store: store.clone(),
-            config: Arc::new(Config::for_database("test")),
+            config: Arc::new(config),
         };
         TestApp {
             router: glasspoint::router(state),
@@ -58,6 +67,16 @@ impl TestApp {
         let store = Store::connect(&url).await.expect("connect sqlite");
         store.migrate().await.expect("migrate sqlite");
         Self::build(store, Some(dir), None)
+    }
+
+    /// The same app with a team safety margin other than the default.
+    pub fn with_margin(self, margin_c: f64) -> TestApp {
+        let mut config = Config::for_database("test");
+        config.margin_c = margin_c;
+        let TestApp {
+            store, _dir, pg, ..
+        } = self;
+        Self::build_with(store, _dir, pg, config)
     }
 
     /// A fresh, migrated PostgreSQL database, when `TEST_DATABASE_URL` names a server.

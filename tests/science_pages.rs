@@ -85,3 +85,48 @@ on_both_backends! {
         assert!(none.body.contains("needs at least two measured blends"));
     }
 }
+
+#[tokio::test]
+async fn the_team_margin_sets_the_limit_that_cycle_checks_use() {
+    let app = crate::helpers::TestApp::sqlite().await.with_margin(4.0);
+    app.load_demo().await;
+    let id = app
+        .store
+        .formulation_id_by_code("LV-001")
+        .await
+        .unwrap()
+        .unwrap();
+    let body = app.get(&format!("/formulations/{id}")).await.body;
+    // Demo LV-001: mean collapse onset −30.9 °C; team margin 4 °C → −34.9 °C.
+    assert!(
+        body.contains("−34.9 °C"),
+        "the team margin applies by default"
+    );
+    assert!(body.contains("team margin of 4 °C"));
+    let cycle = app
+        .store
+        .cycle_id_by_name("Larchvale platform A")
+        .await
+        .unwrap()
+        .unwrap();
+    let link = app
+        .store
+        .links_of_cycle(cycle)
+        .await
+        .unwrap()
+        .into_iter()
+        .find(|l| l.formulation_code == "LV-001")
+        .unwrap();
+    let svg = app
+        .get(&format!(
+            "/cycles/{cycle}/links/{}/temperatures.svg",
+            link.id
+        ))
+        .await
+        .body;
+    assert!(
+        svg.contains("limit −34.9 °C"),
+        "cycle checks use the team margin"
+    );
+    app.cleanup().await;
+}

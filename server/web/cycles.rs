@@ -112,7 +112,9 @@ pub fn link_row(a: &Assessment) -> LinkRow {
 pub async fn assess_all(state: &AppState, links: Vec<CycleLink>) -> Result<Vec<LinkRow>, AppError> {
     let mut rows = Vec::with_capacity(links.len());
     for link in links {
-        rows.push(link_row(&assess(&state.store, link).await?));
+        rows.push(link_row(
+            &assess(&state.store, link, state.config.margin_c).await?,
+        ));
     }
     Ok(rows)
 }
@@ -475,7 +477,7 @@ async fn link_of(state: &AppState, id: i64, link: i64) -> Result<Assessment, App
     if l.cycle_id != id {
         return Err(AppError::NotFound(format!("Cycle link {link}")));
     }
-    assess(&state.store, l).await
+    assess(&state.store, l, state.config.margin_c).await
 }
 
 struct CheckView {

@@ -326,6 +326,7 @@ struct DetailPage {
     d: super::derived_view::DerivedView,
     margin_input: String,
     margin_error: String,
+    team_margin: String,
     updated: String,
     summaries: Vec<ReplicateSummary>,
     groups: Vec<(MeasurementKind, Vec<Measurement>)>,
@@ -338,8 +339,7 @@ struct DetailQuery {
 }
 
 /// The safety margin asked for on the page, or the team default with a message.
-fn margin_from(raw: &str) -> (f64, String) {
-    let default = crate::derive::DEFAULT_MARGIN_C;
+fn margin_from(raw: &str, default: f64) -> (f64, String) {
     let text = raw.trim();
     if text.is_empty() {
         return (default, String::new());
@@ -370,7 +370,7 @@ async fn detail(
     let f = state.store.get_formulation(id).await?;
     let measurements = state.store.measurements_of(id).await?;
     let materials = state.store.list_materials().await?;
-    let (margin_c, margin_error) = margin_from(&q.margin_c);
+    let (margin_c, margin_error) = margin_from(&q.margin_c, state.config.margin_c);
     let derived = crate::derive::derive(&f, &measurements, &materials, margin_c);
     let cycles =
         super::cycles::assess_all(&state, state.store.links_of_formulation(id).await?).await?;
@@ -404,6 +404,7 @@ async fn detail(
             q.margin_c.trim().to_string()
         },
         margin_error,
+        team_margin: crate::web::fmt::trim(state.config.margin_c),
         cycles,
         resistance,
         f,
