@@ -212,3 +212,20 @@ async fn an_oversized_body_is_refused() {
     assert_eq!(app.store.formulation_id_by_code("BIG").await.unwrap(), None);
     app.cleanup().await;
 }
+
+on_both_backends! {
+    async fn formulations_compare_side_by_side(app) {
+        app.load_demo().await;
+        let a = app.store.formulation_id_by_code("LV-001").await.unwrap().unwrap();
+        let b = app.store.formulation_id_by_code("LV-006").await.unwrap().unwrap();
+        let r = app.get(&format!("/formulations/compare?id={a}&id={b}")).await;
+        assert_eq!(r.status, StatusCode::OK);
+        assert!(r.body.contains("LV-001") && r.body.contains("LV-006"));
+        assert!(r.body.contains("Maximum product temperature"));
+        assert!(r.body.contains("Anneal: crystallize the bulking agent"), "LV-006's advice is in its column");
+        let one = app.get(&format!("/formulations/compare?id={a}")).await;
+        assert!(one.body.contains("tick at least two formulations"));
+        let list = app.get("/formulations").await;
+        assert!(list.body.contains("action=\"/formulations/compare\""), "the list offers the comparison");
+    }
+}

@@ -16,6 +16,7 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/formulations", get(list).post(create))
         .route("/formulations/new", get(new_form))
+        .route("/formulations/compare", get(compare))
         .route("/formulations/{id}", get(detail).post(update))
         .route("/formulations/{id}/edit", get(edit_form))
         .route("/formulations/{id}/archive", post(archive))
@@ -563,4 +564,131 @@ async fn set_limit_basis(
     };
     state.store.set_limit_basis(id, crystalline).await?;
     Ok(see_other(&format!("/formulations/{id}")))
+}
+
+// ------------------------------------------------------------------ compare
+
+/// Most formulations one comparison shows side by side.
+pub const MAX_COMPARED: usize = 8;
+
+pub struct CompareColumn {
+    pub id: i64,
+    pub code: String,
+}
+
+#[derive(Template)]
+#[template(path = "formulations/compare.html")]
+struct ComparePage {
+    columns: Vec<CompareColumn>,
+    rows: Vec<(String, Vec<String>)>,
+    message: String,
+}
+
+/// Formulations side by side: composition, measured results, estimate, limit and advice.
+async fn compare(
+    State(state): State<AppState>,
+    axum::extract::RawQuery(query): axum::extract::RawQuery,
+) -> Result<Response, AppError> {
+    let pairs: Vec<(String, String)> =
+        serde_urlencoded::from_str(query.as_deref().unwrap_or("")).unwrap_or_default();
+    let mut ids: Vec<i64> = Vec::new();
+    for (_, v) in pairs.iter().filter(|(k, _)| k == "id") {
+        if let Ok(id) = v.trim().parse::<i64>() {
+            if !ids.contains(&id) {
+                ids.push(id);
+            }
+        }
+    }
+    let mut message = String::new();
+    if ids.len() < 2 {
+        message = "id: tick at least two formulations to compare".into();
+    }
+    if ids.len() > MAX_COMPARED {
+        message = format!(
+            "id: at most {MAX_COMPARED} formulations at once; the first {MAX_COMPARED} are shown"
+        );
+        ids.truncate(MAX_COMPARED);
+    }
+    let materials = state.store.list_materials().await?;
+    let mut columns = Vec::new();
+    let mut cells: Vec<Vec<String>> = Vec::new();
+    for id in &ids {
+        let f = match state.store.get_formulation(*id).await {
+            Ok(f) => f,
+            Err(AppError::NotFound(_)) => {
+                message = format!("id: formulation {id} does not exist and is left out");
+                continue;
+            }
+            Err(e) => return Err(e),
+        };
+        let ms = state.store.measurements_of(*id).await?;
+        let d = crate::derive::derive(&f, &ms, &materials, state.config.margin_c);
+        let v = super::derived_view::view(&d);
+        let summary = |kind: MeasurementKind| {
+            let values: Vec<f64> = ms
+                .iter()
+                .filter(|m| m.kind == kind)
+                .map(|m| m.value_c)
+                .collect();
+            match values.len() {
+                0 => "—".to_string(),
+                n => format!(
+                    "{} °C (n = {n})",
+                    crate::web::fmt::num1(values.iter().sum::<f64>() / n as f64)
+                ),
+            }
+        };
+        cells.push(vec![
+            f.name.clone(),
+            f.status.label().to_string(),
+            f.components
+                .iter()
+                .map(|c| {
+                    format!(
+                        "{} {}",
+                        c.material_name,
+                        crate::web::fmt::percent(c.solid_fraction)
+                    )
+                })
+                .collect::<Vec<_>>()
+                .join(", "),
+            format!("{} mg/mL", crate::web::fmt::num1(f.solids_mg_ml)),
+            summary(MeasurementKind::TgPrime),
+            summary(MeasurementKind::CollapseOnset),
+            summary(MeasurementKind::Te),
+            v.estimate_value.clone(),
+            if v.has_limit {
+                format!("{} ({})", v.limit_value, v.basis)
+            } else {
+                "—".into()
+            },
+            v.anneal_headline.clone(),
+        ]);
+        columns.push(CompareColumn {
+            id: f.id,
+            code: f.code,
+        });
+    }
+    let labels = [
+        "Name",
+        "Status",
+        "Solids (share)",
+        "Solids content",
+        "Measured Tg′",
+        "Measured collapse onset",
+        "Measured Te",
+        "Tg′ estimate",
+        "Maximum product temperature",
+        "Annealing",
+    ];
+    let rows = labels
+        .iter()
+        .enumerate()
+        .map(|(i, l)| (l.to_string(), cells.iter().map(|c| c[i].clone()).collect()))
+        .collect();
+    Ok(render(ComparePage {
+        columns,
+        rows,
+        message,
+    }))
 }
