@@ -229,3 +229,26 @@ on_both_backends! {
         assert!(list.body.contains("action=\"/formulations/compare\""), "the list offers the comparison");
     }
 }
+
+#[tokio::test]
+async fn a_form_posted_from_another_site_is_refused() {
+    let app = crate::helpers::TestApp::sqlite().await;
+    let request = axum::http::Request::post("/formulations")
+        .header("content-type", "application/x-www-form-urlencoded")
+        .header("sec-fetch-site", "cross-site")
+        .body(axum::body::Body::from("code=EVIL-1&name=x"))
+        .unwrap();
+    let r = app.request(request).await;
+    assert_eq!(r.status, StatusCode::FORBIDDEN);
+    assert_eq!(
+        app.store.formulation_id_by_code("EVIL-1").await.unwrap(),
+        None
+    );
+    let same_site = axum::http::Request::post("/formulations")
+        .header("content-type", "application/x-www-form-urlencoded")
+        .header("sec-fetch-site", "same-origin")
+        .body(axum::body::Body::from("code=OK-1&name=x"))
+        .unwrap();
+    assert_eq!(app.request(same_site).await.status, StatusCode::SEE_OTHER);
+    app.cleanup().await;
+}

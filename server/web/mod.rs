@@ -21,6 +21,7 @@ use axum::response::{Html, IntoResponse, Redirect, Response};
 use axum::routing::get;
 use axum::Router;
 use tower_http::catch_panic::CatchPanicLayer;
+use tower_http::csrf::CsrfLayer;
 use tower_http::limit::RequestBodyLimitLayer;
 use tower_http::set_header::SetResponseHeaderLayer;
 use tower_http::timeout::TimeoutLayer;
@@ -58,6 +59,9 @@ pub fn middleware(app: Router, config: &Config) -> Router {
             header::X_CONTENT_TYPE_OPTIONS,
             HeaderValue::from_static("nosniff"),
         ))
+        // Refuses unsafe requests sent from another site (by Sec-Fetch-Site, else Origin
+        // against Host); same-site pages and clients without those headers pass.
+        .layer(CsrfLayer::new())
         .layer(TraceLayer::new_for_http())
         .layer(CatchPanicLayer::custom(|_| {
             tracing::error!("a request handler panicked");
