@@ -141,3 +141,48 @@ async fn unknown_ids_answer_404_json_and_the_openapi_document_lists_the_routes()
     }
     app.cleanup().await;
 }
+
+on_both_backends! {
+    async fn cycles_are_created_linked_and_judged_through_the_api(app) {
+        app.load_demo().await;
+        let program = json!({
+            "freezing": {"ramp_c_per_min": 1.0, "hold_temp_c": -45.0, "hold_min": 120.0},
+            "primary": {"ramp_c_per_min": 0.5, "shelf_temp_c": -28.0, "chamber_pressure_mtorr": 80.0, "hold_min": 3000.0},
+            "secondary": {"ramp_c_per_min": 0.1, "shelf_temp_c": 40.0, "pressure_mtorr": 80.0, "hold_min": 360.0},
+            "condenser_temp_c": -70.0
+        });
+        let created = app.post_json("/api/v1/cycles", &json!({"name": "API cycle", "program": program})).await;
+        assert_eq!(created.status, StatusCode::CREATED, "{}", created.body);
+        let id = created.json()["cycle"]["id"].as_i64().unwrap();
+
+        let mut bad = program.clone();
+        bad["primary"]["ramp_c_per_min"] = json!(0.0);
+        let r = app.post_json("/api/v1/cycles", &json!({"name": "Bad", "program": bad})).await;
+        assert_eq!(r.status, StatusCode::UNPROCESSABLE_ENTITY);
+        assert_eq!(r.json()["field"], "program.primary.ramp_c_per_min");
+        let r = app.post_json("/api/v1/cycles", &json!({"name": "Bad", "program": {"freezing": {}}})).await;
+        assert_eq!(r.status, StatusCode::UNPROCESSABLE_ENTITY);
+        assert!(r.json()["field"].as_str().unwrap().starts_with("program.freezing"), "{}", r.body);
+
+        let fid = app.store.formulation_id_by_code("LV-002").await.unwrap().unwrap();
+        let vial = app.store.list_containers().await.unwrap()[0].id;
+        let linked = app.post_json(&format!("/api/v1/cycles/{id}/links"), &json!({"formulation_id": fid, "container_id": vial})).await;
+        assert_eq!(linked.status, StatusCode::CREATED, "{}", linked.body);
+        let detail = linked.json();
+        let link = &detail["links"][0];
+        assert!(link["verdict"]["overall"].is_string(), "{detail}");
+        assert!(link["verdict"]["caution"].as_str().unwrap().contains("experimental confirmation"));
+        assert!(link["predicted_drying_time_h"].as_f64().unwrap() > 0.0);
+        let unknown = app.post_json(&format!("/api/v1/cycles/{id}/links"), &json!({"formulation_id": 99999, "container_id": vial})).await;
+        assert_eq!(unknown.status, StatusCode::UNPROCESSABLE_ENTITY);
+        assert_eq!(unknown.json()["field"], "formulation_id");
+
+        let version = detail["cycle"]["version"].clone();
+        let renamed = app.put_json(&format!("/api/v1/cycles/{id}"), &json!({"name": "API cycle 2", "program": program, "version": version})).await;
+        assert_eq!(renamed.status, StatusCode::OK, "{}", renamed.body);
+        let stale = app.put_json(&format!("/api/v1/cycles/{id}"), &json!({"name": "late", "program": program, "version": version})).await;
+        assert_eq!(stale.status, StatusCode::CONFLICT);
+        let list = app.get("/api/v1/cycles").await.json();
+        assert!(list["items"].as_array().unwrap().iter().any(|c| c["name"] == "API cycle 2"));
+    }
+}

@@ -1,6 +1,7 @@
 //! The JSON API under `/api/v1/`, described by `/api/v1/openapi.json`.
 
 mod calc;
+mod cycles;
 mod input;
 mod records;
 
@@ -18,6 +19,7 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/openapi.json", get(|| async { Json(ApiDoc::openapi()) }))
         .merge(records::router())
+        .merge(cycles::router())
         .merge(calc::router())
         .fallback(|| async { ApiError(crate::AppError::NotFound("This API route".into())) })
 }
@@ -45,6 +47,11 @@ pub fn router() -> Router<AppState> {
         records::get_container,
         records::create_container,
         records::update_container,
+        cycles::list_cycles,
+        cycles::get_cycle,
+        cycles::create_cycle,
+        cycles::update_cycle,
+        cycles::create_link,
         calc::calc,
     ),
     components(schemas(
@@ -55,6 +62,12 @@ pub fn router() -> Router<AppState> {
         input::MeasurementInput,
         input::ContainerInput,
         ErrorBody,
+        cycles::CycleInput,
+        cycles::LinkInput,
+        cycles::LinkVerdict,
+        cycles::CycleDetail,
+        crate::domain::Cycle,
+        crate::domain::CycleLink,
         crate::domain::Formulation,
         crate::domain::Component,
         crate::domain::Material,

@@ -1,0 +1,192 @@
+//! Candidate cycles through the API: list, get with each link's verdict, create, update,
+//! and link a formulation.
+
+use axum::extract::{Path, State};
+use axum::http::StatusCode;
+use axum::routing::{get, post};
+use axum::{Json, Router};
+use glasspoint_science::verdict::{validate_cycle, CycleProgram, CycleVerdict};
+use serde::{Deserialize, Serialize};
+use utoipa::ToSchema;
+
+use super::ApiJson;
+use crate::domain::*;
+use crate::error::ApiError;
+use crate::storage::Page;
+use crate::{AppError, AppState};
+
+pub fn router() -> Router<AppState> {
+    Router::new()
+        .route("/cycles", get(list_cycles).post(create_cycle))
+        .route("/cycles/{id}", get(get_cycle).put(update_cycle))
+        .route("/cycles/{id}/links", post(create_link))
+}
+
+#[derive(Debug, Deserialize, ToSchema)]
+pub struct CycleInput {
+    pub name: String,
+    #[serde(default)]
+    pub notes: String,
+    /// {freezing, annealing?, primary, secondary, condenser_temp_c?}, holds in minutes.
+    #[schema(value_type = Object)]
+    pub program: CycleProgram,
+    pub sublimation_ceiling_kg_h_m2: Option<f64>,
+    /// Required on update: the version you read.
+    pub version: Option<i64>,
+}
+
+impl CycleInput {
+    fn draft(&self) -> Result<CycleDraft, AppError> {
+        let name = self.name.trim();
+        if name.is_empty() {
+            return Err(AppError::input("name", "is required"));
+        }
+        if name.chars().count() > 120 {
+            return Err(AppError::input("name", "must be at most 120 characters"));
+        }
+        validate_cycle(&self.program)
+            .map_err(|e| AppError::input(format!("program.{}", e.field), e.message))?;
+        if let Some(c) = self.sublimation_ceiling_kg_h_m2 {
+            if !c.is_finite() || c <= 0.0 || c > 100.0 {
+                return Err(AppError::input(
+                    "sublimation_ceiling_kg_h_m2",
+                    "must be above 0 and at most 100 kg/(h·m²)",
+                ));
+            }
+        }
+        Ok(CycleDraft {
+            name: name.to_string(),
+            notes: self.notes.trim().to_string(),
+            program: self.program.clone(),
+            sublimation_ceiling_kg_h_m2: self.sublimation_ceiling_kg_h_m2,
+        })
+    }
+}
+
+#[derive(Debug, Deserialize, ToSchema)]
+pub struct LinkInput {
+    pub formulation_id: i64,
+    pub container_id: i64,
+    /// Defaults to the formulation's own target fill.
+    pub fill_volume_ml: Option<f64>,
+}
+
+/// One link with what the model and the checks say of it.
+#[derive(Debug, Serialize, ToSchema)]
+pub struct LinkVerdict {
+    pub link: CycleLink,
+    pub max_product_temp_c: Option<f64>,
+    pub predicted_drying_time_h: Option<f64>,
+    pub peak_front_temp_c: Option<f64>,
+    #[schema(value_type = Object)]
+    pub verdict: Option<CycleVerdict>,
+    /// Why there is no verdict, when there is none.
+    pub verdict_error: Option<String>,
+}
+
+#[derive(Debug, Serialize, ToSchema)]
+pub struct CycleDetail {
+    pub cycle: Cycle,
+    pub links: Vec<LinkVerdict>,
+}
+
+#[utoipa::path(get, path = "/api/v1/cycles", responses((status = 200, description = "{items, page, per_page, total, pages}; archived cycles included")))]
+pub async fn list_cycles(State(state): State<AppState>) -> Result<Json<Page<Cycle>>, ApiError> {
+    let items = state.store.list_cycles(true).await?;
+    let total = items.len() as i64;
+    Ok(Json(Page {
+        items,
+        page: 1,
+        per_page: total.max(1),
+        total,
+        pages: 1,
+    }))
+}
+
+#[utoipa::path(get, path = "/api/v1/cycles/{id}",
+    responses((status = 200, body = CycleDetail), (status = 404, body = super::ErrorBody)))]
+pub async fn get_cycle(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Json<CycleDetail>, ApiError> {
+    let cycle = state.store.get_cycle(id).await?;
+    let mut links = Vec::new();
+    for link in state.store.links_of_cycle(id).await? {
+        let a = crate::derive::assess(&state.store, link, state.config.margin_c).await?;
+        let (verdict, verdict_error) = match a.verdict {
+            Ok(v) => (Some(v), None),
+            Err(e) => (None, Some(e)),
+        };
+        links.push(LinkVerdict {
+            max_product_temp_c: a.derived.max_product_temp_c(),
+            predicted_drying_time_h: a.simulation.as_ref().map(|s| s.summary.drying_time_h),
+            peak_front_temp_c: a.simulation.as_ref().map(|s| s.summary.peak_front_temp_c),
+            link: a.link,
+            verdict,
+            verdict_error,
+        });
+    }
+    Ok(Json(CycleDetail { cycle, links }))
+}
+
+#[utoipa::path(post, path = "/api/v1/cycles", request_body = CycleInput,
+    responses((status = 201, body = CycleDetail), (status = 422, body = super::ErrorBody)))]
+pub async fn create_cycle(
+    State(state): State<AppState>,
+    ApiJson(input): ApiJson<CycleInput>,
+) -> Result<(StatusCode, Json<CycleDetail>), ApiError> {
+    let id = state.store.create_cycle(&input.draft()?).await?;
+    let detail = get_cycle(State(state), Path(id)).await?;
+    Ok((StatusCode::CREATED, detail))
+}
+
+#[utoipa::path(put, path = "/api/v1/cycles/{id}", request_body = CycleInput,
+    responses((status = 200, body = CycleDetail), (status = 404, body = super::ErrorBody),
+              (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
+pub async fn update_cycle(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    ApiJson(input): ApiJson<CycleInput>,
+) -> Result<Json<CycleDetail>, ApiError> {
+    let draft = input.draft()?;
+    let version = input.version.ok_or_else(|| {
+        AppError::input(
+            "version",
+            "is required on update: send the version you read",
+        )
+    })?;
+    state.store.update_cycle(id, version, &draft).await?;
+    get_cycle(State(state), Path(id)).await
+}
+
+#[utoipa::path(post, path = "/api/v1/cycles/{id}/links", request_body = LinkInput,
+    responses((status = 201, body = CycleDetail), (status = 404, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
+pub async fn create_link(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+    ApiJson(input): ApiJson<LinkInput>,
+) -> Result<(StatusCode, Json<CycleDetail>), ApiError> {
+    let fill = match input.fill_volume_ml {
+        Some(v) => v,
+        None => match state.store.get_formulation(input.formulation_id).await {
+            Ok(f) => f.fill_volume_ml.ok_or_else(|| {
+                AppError::input(
+                    "fill_volume_ml",
+                    "is required: the formulation has no target fill",
+                )
+            })?,
+            Err(AppError::NotFound(_)) => {
+                return Err(AppError::input("formulation_id", "unknown formulation").into())
+            }
+            Err(e) => return Err(e.into()),
+        },
+    };
+    let form = LinkForm {
+        formulation_id: input.formulation_id.to_string(),
+        container_id: input.container_id.to_string(),
+        fill_volume_ml: fill.to_string(),
+    };
+    state.store.create_link(id, &form.parse()?).await?;
+    let detail = get_cycle(State(state), Path(id)).await?;
+    Ok((StatusCode::CREATED, detail))
+}
