@@ -104,6 +104,7 @@ pub async fn list_cycles(State(state): State<AppState>) -> Result<Json<Page<Cycl
 }
 
 #[utoipa::path(get, path = "/api/v1/cycles/{id}",
+    params(("id" = i64, Path, description = "record id")),
     responses((status = 200, body = CycleDetail), (status = 404, body = super::ErrorBody)))]
 pub async fn get_cycle(
     State(state): State<AppState>,
@@ -140,7 +141,8 @@ pub async fn create_cycle(
     Ok((StatusCode::CREATED, detail))
 }
 
-#[utoipa::path(put, path = "/api/v1/cycles/{id}", request_body = CycleInput,
+#[utoipa::path(put, path = "/api/v1/cycles/{id}",
+    params(("id" = i64, Path, description = "record id")), request_body = CycleInput,
     responses((status = 200, body = CycleDetail), (status = 404, body = super::ErrorBody),
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_cycle(
@@ -159,7 +161,8 @@ pub async fn update_cycle(
     get_cycle(State(state), Path(id)).await
 }
 
-#[utoipa::path(post, path = "/api/v1/cycles/{id}/links", request_body = LinkInput,
+#[utoipa::path(post, path = "/api/v1/cycles/{id}/links",
+    params(("id" = i64, Path, description = "record id")), request_body = LinkInput,
     responses((status = 201, body = CycleDetail), (status = 404, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn create_link(
     State(state): State<AppState>,

@@ -111,6 +111,7 @@ pub async fn list_formulations(
 }
 
 #[utoipa::path(get, path = "/api/v1/formulations/{id}",
+    params(("id" = i64, Path, description = "record id")),
     responses((status = 200, body = Formulation), (status = 404, body = super::ErrorBody)))]
 pub async fn get_formulation(
     State(state): State<AppState>,
@@ -135,7 +136,8 @@ pub async fn create_formulation(
     Ok((StatusCode::CREATED, Json(created)))
 }
 
-#[utoipa::path(put, path = "/api/v1/formulations/{id}", request_body = FormulationInput,
+#[utoipa::path(put, path = "/api/v1/formulations/{id}",
+    params(("id" = i64, Path, description = "record id")), request_body = FormulationInput,
     responses((status = 200, body = Formulation), (status = 404, body = super::ErrorBody),
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_formulation(
@@ -162,6 +164,7 @@ pub async fn list_materials(State(state): State<AppState>) -> ApiResult<Json<Pag
 }
 
 #[utoipa::path(get, path = "/api/v1/materials/{id}",
+    params(("id" = i64, Path, description = "record id")),
     responses((status = 200, body = Material), (status = 404, body = super::ErrorBody)))]
 pub async fn get_material(
     State(state): State<AppState>,
@@ -187,7 +190,8 @@ pub async fn create_material(
     Ok((StatusCode::CREATED, Json(created)))
 }
 
-#[utoipa::path(put, path = "/api/v1/materials/{id}", request_body = MaterialInput,
+#[utoipa::path(put, path = "/api/v1/materials/{id}",
+    params(("id" = i64, Path, description = "record id")), request_body = MaterialInput,
     responses((status = 200, body = Material), (status = 404, body = super::ErrorBody),
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_material(
@@ -233,6 +237,7 @@ pub async fn list_measurements(
 }
 
 #[utoipa::path(get, path = "/api/v1/measurements/{id}",
+    params(("id" = i64, Path, description = "record id")),
     responses((status = 200, body = Measurement), (status = 404, body = super::ErrorBody)))]
 pub async fn get_measurement(
     State(state): State<AppState>,
@@ -267,7 +272,8 @@ pub async fn create_measurement(
     ))
 }
 
-#[utoipa::path(put, path = "/api/v1/measurements/{id}", request_body = MeasurementInput,
+#[utoipa::path(put, path = "/api/v1/measurements/{id}",
+    params(("id" = i64, Path, description = "record id")), request_body = MeasurementInput,
     responses((status = 200, body = Measurement), (status = 404, body = super::ErrorBody),
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_measurement(
@@ -289,6 +295,7 @@ pub async fn list_containers(State(state): State<AppState>) -> ApiResult<Json<Pa
 }
 
 #[utoipa::path(get, path = "/api/v1/containers/{id}",
+    params(("id" = i64, Path, description = "record id")),
     responses((status = 200, body = Container), (status = 404, body = super::ErrorBody)))]
 pub async fn get_container(
     State(state): State<AppState>,
@@ -311,7 +318,8 @@ pub async fn create_container(
     ))
 }
 
-#[utoipa::path(put, path = "/api/v1/containers/{id}", request_body = ContainerInput,
+#[utoipa::path(put, path = "/api/v1/containers/{id}",
+    params(("id" = i64, Path, description = "record id")), request_body = ContainerInput,
     responses((status = 200, body = Container), (status = 404, body = super::ErrorBody),
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_container(
