@@ -289,9 +289,7 @@ pub fn derive(
 
 use glasspoint_science::design_space::SublimationCeiling;
 use glasspoint_science::drying::{DryingBase, PrimaryDryingResult, Resistance, Vial};
-use glasspoint_science::verdict::{
-    check_cycle, primary_drying_input, CycleVerdict, FormulationFacts,
-};
+use glasspoint_science::verdict::{check_and_simulate, CycleVerdict, FormulationFacts};
 
 /// Solution density taken for every formulation, g/mL (the model's default).
 pub const SOLUTION_DENSITY_G_ML: f64 = 1.0;
@@ -398,14 +396,11 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
     let ceiling = cycle
         .sublimation_ceiling_kg_h_m2
         .map(SublimationCeiling::PerShelfAreaKgHM2);
-    let verdict = check_cycle(&cycle.program, &facts, &base, ceiling, None)
-        .map_err(|e| format!("{}: {}", e.field, e.message));
-    let simulation = glasspoint_science::drying::simulate(&primary_drying_input(
-        &cycle.program,
-        &base,
-        facts.max_product_temp_c,
-    ))
-    .ok();
+    let (verdict, simulation) =
+        match check_and_simulate(&cycle.program, &facts, &base, ceiling, None) {
+            Ok((v, sim)) => (Ok(v), sim),
+            Err(e) => (Err(format!("{}: {}", e.field, e.message)), None),
+        };
     Ok(Assessment {
         link,
         cycle,

@@ -268,6 +268,18 @@ pub fn check_cycle(
     ceiling: Option<SublimationCeiling>,
     safety_factor: Option<f64>,
 ) -> Result<CycleVerdict, InputError> {
+    check_and_simulate(cycle, facts, base, ceiling, safety_factor).map(|(verdict, _)| verdict)
+}
+
+/// [`check_cycle`], also handing back the simulation it judged (absent when the model
+/// could not dry the cycle), so a caller drawing charts need not simulate again.
+pub fn check_and_simulate(
+    cycle: &CycleProgram,
+    facts: &FormulationFacts,
+    base: &DryingBase,
+    ceiling: Option<SublimationCeiling>,
+    safety_factor: Option<f64>,
+) -> Result<(CycleVerdict, Option<PrimaryDryingResult>), InputError> {
     validate_cycle(cycle)?;
     let options = VerdictOptions {
         safety_factor: safety_factor.unwrap_or(DEFAULT_SAFETY_FACTOR),
@@ -275,8 +287,10 @@ pub fn check_cycle(
     };
     let input = primary_drying_input(cycle, base, facts.max_product_temp_c);
     match simulate_checked(&input) {
-        Ok(result) => judge(cycle, facts, Ok(&result), &options),
-        Err(DryingError::Stop { stop, .. }) => judge(cycle, facts, Err(&stop), &options),
+        Ok(result) => judge(cycle, facts, Ok(&result), &options).map(|v| (v, Some(result))),
+        Err(DryingError::Stop { stop, .. }) => {
+            judge(cycle, facts, Err(&stop), &options).map(|v| (v, None))
+        }
         Err(DryingError::Input(e)) => Err(e),
     }
 }
