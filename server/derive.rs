@@ -149,7 +149,7 @@ pub fn derive(
         )
     } else {
         match formulation_estimate(&FormulationEstimateInput {
-            components: components.clone(),
+            components,
             method: Default::default(),
             max_missing_share: glasspoint_science::composition::DEFAULT_MAX_MISSING_SHARE,
         }) {

@@ -71,20 +71,14 @@ pub struct MaterialDraft {
 }
 
 /// A material as typed: one value, convention and citation per property kind.
-#[derive(Debug, Clone, Default, serde::Deserialize)]
+#[derive(Debug, Clone, Default)]
 pub struct MaterialForm {
-    #[serde(default)]
     pub name: String,
-    #[serde(default)]
     pub role: String,
-    #[serde(default)]
     pub freezing_behaviour: String,
-    #[serde(default)]
     pub notes: String,
-    #[serde(default)]
     pub version: String,
     /// Per property kind: (value, convention, citation, source kind).
-    #[serde(skip)]
     pub properties: Vec<(PropertyKind, PropertyForm)>,
 }
 
@@ -227,8 +221,7 @@ impl MaterialForm {
                 }
             };
             match value {
-                Some(v) if citation.is_empty() => {
-                    let _ = v;
+                Some(_) if citation.is_empty() => {
                     errors.add(
                         format!("{code}_citation"),
                         "a value needs its source: a citation, or the in-house measurement it came from",
