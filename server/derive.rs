@@ -296,7 +296,7 @@ pub const SOLUTION_DENSITY_G_ML: f64 = 1.0;
 
 /// A stated default dry-layer resistance for a solids content, used until the team
 /// measures one: the often-quoted 5 % sucrose values (R0 ≈ 1.4 cm²·Torr·h/g,
-/// A1 ≈ 16 cm·Torr·h/g, A2 ≈ 0; references.md, from memory), with A1 scaled in proportion
+/// A1 ≈ 16 cm·Torr·h/g, A2 ≈ 0; literature value, from memory), with A1 scaled in proportion
 /// to the solids content (common practice, no source).
 pub fn default_resistance(solids_mass_fraction: f64) -> DryLayerResistance {
     let scale = (solids_mass_fraction / 0.05).clamp(0.2, 6.0);

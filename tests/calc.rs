@@ -130,7 +130,7 @@ async fn every_topic_answers_the_same_through_the_api_and_the_command_line() {
 #[tokio::test]
 async fn results_carry_published_values() {
     let app = TestApp::sqlite().await;
-    // Fox (1956): a 50/50 blend of 373 K and 378 K gives 375.48 K (references.md; the
+    // Fox (1956): a 50/50 blend of 373 K and 378 K gives 375.48 K (worked value; the
     // crate polysim-core asserts 375.4 ± 0.2 K).
     let r = app
         .post_json("/api/v1/calc/mixture-tg", &cases()[1].1)
@@ -150,7 +150,7 @@ async fn results_carry_published_values() {
         "{p}"
     );
     // Kv of a typical tubing vial at 100 mTorr lies in the 15–25 W/(m²·K) reported range
-    // (references.md, from memory).
+    // (literature value, from memory).
     let d = app
         .post_json("/api/v1/calc/primary-drying", &cases()[8].1)
         .await

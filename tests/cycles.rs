@@ -131,7 +131,7 @@ async fn the_shipped_vials_have_kv_in_the_reported_range_at_100_mtorr() {
         let p_torr = 0.1;
         let kv = c.kc_cal_s_cm2_k + c.kp_cal_s_cm2_k_torr * p_torr / (1.0 + c.kd_per_torr * p_torr);
         let kv_si = glasspoint_science::units::cal_s_cm2_k_to_w_m2_k(kv);
-        // references.md: typical tubing-vial Kv at 100 mTorr is 15–25 W/(m²·K) (from memory).
+        // literature: typical tubing-vial Kv at 100 mTorr is 15–25 W/(m²·K) (from memory).
         assert!((15.0..=25.0).contains(&kv_si), "{}: {kv_si}", c.name);
     }
     app.cleanup().await;

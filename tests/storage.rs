@@ -13,7 +13,7 @@ on_both_backends! {
             }
         }
         let sucrose = materials.iter().find(|m| m.name == "Sucrose").unwrap();
-        // references.md: sucrose Tg′ about −32 °C (higher transition), from memory.
+        // literature: sucrose Tg′ about −32 °C (higher transition), from memory.
         let tg = sucrose.value(PropertyKind::TgPrime).unwrap();
         assert!((-35.0..=-31.0).contains(&tg), "sucrose Tg′ {tg}");
         let nacl = materials.iter().find(|m| m.name == "Sodium chloride").unwrap();

@@ -372,7 +372,7 @@ mod tests {
 
     #[test]
     fn mannitol_with_sucrose_gets_a_window_between_tg_prime_and_te() {
-        // Mannitol Te −1.0 to −1.5 °C; sucrose Tg' −32 °C (references.md, from memory).
+        // Mannitol Te −1.0 to −1.5 °C; sucrose Tg' −32 °C (literature value, from memory).
         let a = advice(json!({
             "crystallizing": [{"name": "mannitol", "te_c": -1.5, "solid_fraction": 0.8}],
             "amorphous_tg_prime_c": -32.0, "protein_present": true
@@ -390,7 +390,7 @@ mod tests {
 
     #[test]
     fn an_exotherm_above_tg_prime_raises_the_floor_of_the_window() {
-        // Glycine Te −3.0 to −3.5 °C (references.md, from memory); exotherm onset invented.
+        // Glycine Te −3.0 to −3.5 °C (literature value, from memory); exotherm onset invented.
         let a = advice(json!({
             "crystallizing": [{"name": "glycine", "te_c": -3.5, "solid_fraction": 0.5}],
             "amorphous_tg_prime_c": -38.0, "crystallization_exotherm_onset_c": -18.0
@@ -414,7 +414,7 @@ mod tests {
 
     #[test]
     fn an_all_amorphous_formulation_gets_an_optional_ice_ripening_hold() {
-        // Sucrose Tg' −32 °C (references.md, from memory).
+        // Sucrose Tg' −32 °C (literature value, from memory).
         let a = advice(json!({"amorphous_tg_prime_c": -32.0, "protein_present": true}));
         assert_eq!(a.recommend, Recommendation::Optional);
         assert_eq!(a.kind, Some(AnnealKind::IceRipening));

@@ -397,7 +397,7 @@ mod tests {
 
     #[test]
     fn a_single_excipient_reproduces_its_own_tg_prime() {
-        // Sucrose Tg' −32 °C (references.md, from memory).
+        // Sucrose Tg' −32 °C (literature value, from memory).
         let r = estimate(vec![part("sucrose", 50.0, Amorphous, Some(-32.0))]);
         assert_eq!(r.status, EstimateStatus::Estimated);
         assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
@@ -406,7 +406,7 @@ mod tests {
 
     #[test]
     fn sucrose_with_trehalose_lies_between_their_tg_primes() {
-        // Tg' sucrose −32 °C, trehalose −29.5 °C (references.md, from memory).
+        // Tg' sucrose −32 °C, trehalose −29.5 °C (literature value, from memory).
         let r = estimate(vec![
             part("sucrose", 30.0, Amorphous, Some(-32.0)),
             part("trehalose", 20.0, Amorphous, Some(-29.5)),
@@ -418,7 +418,7 @@ mod tests {
 
     #[test]
     fn a_crystallizing_bulking_agent_is_left_out_and_reported() {
-        // Mannitol crystallizes (references.md); sucrose Tg' −32 °C.
+        // Mannitol crystallizes (literature); sucrose Tg' −32 °C.
         let r = estimate(vec![
             part("mannitol", 40.0, Crystallizes, Some(-33.0)),
             part("sucrose", 10.0, Amorphous, Some(-32.0)),
@@ -436,7 +436,7 @@ mod tests {
 
     #[test]
     fn a_component_that_may_crystallize_is_counted_and_flagged() {
-        // Glycine amorphous Tg' ≈ −37 to −40 °C; sucrose −32 °C (references.md, from memory).
+        // Glycine amorphous Tg' ≈ −37 to −40 °C; sucrose −32 °C (literature value, from memory).
         let r = estimate(vec![
             part("sucrose", 40.0, Amorphous, Some(-32.0)),
             part("glycine", 10.0, MayCrystallize, Some(-38.0)),

@@ -1272,7 +1272,7 @@ pub(crate) mod tests {
     }
 
     /// 5 % sucrose, 4 mL in a 10 mL tubing vial; Rp for 5 % sucrose R0 ≈ 1.4, A1 ≈ 16,
-    /// A2 ≈ 0 cm²·Torr·h/g (references.md, from memory).
+    /// A2 ≈ 0 cm²·Torr·h/g (literature value, from memory).
     pub(crate) fn sucrose_5_percent() -> DryingBase {
         DryingBase {
             fill_volume_ml: 4.0,
@@ -1305,7 +1305,7 @@ pub(crate) mod tests {
 
     #[test]
     fn kv_of_a_tubing_vial_at_100_mtorr_is_15_to_25_w_m2k() {
-        // references.md: typical tubing vial Kv at 100 mTorr is 15–25 W/(m²·K) (from memory).
+        // typical tubing vial Kv at 100 mTorr is 15–25 W/(m²·K) (from memory).
         let product = Product::new(&sucrose_5_percent()).unwrap();
         let kv = product.kv_w_m2k(mtorr_to_pa(100.0));
         assert!((15.0..=25.0).contains(&kv), "Kv = {kv}");

@@ -263,7 +263,7 @@ mod tests {
     use approx::assert_relative_eq;
     use serde_json::json;
 
-    // Pure-component Tg' of sucrose −32 °C and dextran ≈ −10 °C (references.md, from memory).
+    // Pure-component Tg' of sucrose −32 °C and dextran ≈ −10 °C (literature value, from memory).
     const TG1_C: f64 = -32.0;
     const TG2_C: f64 = -10.0;
 

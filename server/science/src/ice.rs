@@ -72,7 +72,7 @@ mod tests {
 
     #[test]
     fn vapour_pressure_agrees_with_iapws_2011_from_minus_80_to_0_c() {
-        // Source: IAPWS R14-08(2011); references.md states agreement within 0.05 %.
+        // Source: IAPWS R14-08(2011), which agrees with Murphy & Koop within 0.05 % from −60 to 0 °C.
         let mut t = -80.0;
         while t <= 0.0 {
             let mk = vapour_pressure_pa(t).unwrap();
@@ -91,7 +91,7 @@ mod tests {
 
     #[test]
     fn sublimation_enthalpy_near_minus_30_c_is_about_2838_j_g() {
-        // Source: Murphy & Koop (2005) eq. 5; references.md: ≈ 2838 J/g near −30 °C.
+        // Source: Murphy & Koop (2005) eq. 5: about 2838 J/g near −30 °C.
         assert_relative_eq!(sublimation_enthalpy_j_g(-30.0), 2838.0, max_relative = 2e-3);
     }
 

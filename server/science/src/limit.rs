@@ -271,7 +271,7 @@ mod tests {
 
     #[test]
     fn a_measured_collapse_onset_governs_over_tg_prime() {
-        // Sucrose: Tg' −32 °C, Tc ≈ −32 (references.md, Pikal & Shah 1990, from memory).
+        // Sucrose: Tg' −32 °C, Tc ≈ −32 (Pikal & Shah 1990, from memory).
         let r = limit(json!({"collapse_onset_c": -31.0, "tg_prime_c": -32.0}));
         assert_eq!(r.basis, LimitBasis::CollapseOnset);
         assert_relative_eq!(r.max_product_temp_c, -33.0, max_relative = 1e-12);
@@ -281,7 +281,7 @@ mod tests {
 
     #[test]
     fn measured_tg_prime_governs_when_no_collapse_was_measured() {
-        // Trehalose Tg' −29.5 °C (references.md, from memory); team margin 2 °C.
+        // Trehalose Tg' −29.5 °C (literature value, from memory); team margin 2 °C.
         let r = limit(json!({"tg_prime_c": -29.5, "tg_prime_estimate_c": -20.0}));
         assert_eq!(r.basis, LimitBasis::TgPrime);
         assert_relative_eq!(r.max_product_temp_c, -31.5, max_relative = 1e-12);
@@ -301,7 +301,7 @@ mod tests {
 
     #[test]
     fn a_crystalline_matrix_offers_the_eutectic_as_an_alternative() {
-        // Mannitol: amorphous Tg' −32 to −35 °C, Te −1.0 to −1.5 °C (references.md, from memory).
+        // Mannitol: amorphous Tg' −32 to −35 °C, Te −1.0 to −1.5 °C (literature value, from memory).
         let r = limit(json!({"tg_prime_c": -33.0, "eutectic_c": -1.5, "crystalline_matrix": true}));
         assert_eq!(r.basis, LimitBasis::TgPrime);
         let alt = r.alternative.unwrap();
@@ -312,7 +312,7 @@ mod tests {
 
     #[test]
     fn the_eutectic_governs_a_crystalline_matrix_with_nothing_amorphous_known() {
-        // Glycine Te −3.0 to −3.5 °C (references.md, from memory).
+        // Glycine Te −3.0 to −3.5 °C (literature value, from memory).
         let r = limit(json!({"eutectic_c": -3.5, "crystalline_matrix": true}));
         assert_eq!(r.basis, LimitBasis::Eutectic);
         assert_relative_eq!(r.max_product_temp_c, -5.5, max_relative = 1e-12);

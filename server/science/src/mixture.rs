@@ -273,7 +273,7 @@ mod tests {
 
     #[test]
     fn fox_of_a_50_50_blend_of_373_and_378_k_is_375_48_k() {
-        // Source: references.md (Fox 1956); the crate polysim-core asserts 375.4 ± 0.2 K.
+        // Source: Fox (1956), Bull. Am. Phys. Soc. 1:123; the crate polysim-core asserts 375.4 ± 0.2 K.
         let r = mixture_tg(
             MixtureMethod::Fox,
             &[part("a", 0.5, k_to_c(373.0)), part("b", 0.5, k_to_c(378.0))],
@@ -307,7 +307,7 @@ mod tests {
     fn couchman_karasz_matches_a_hand_calculation() {
         // Hand calculation from the published equation (Couchman & Karasz 1978), no traced
         // worked value: sucrose 335.15 K with ΔCp 0.60, water 136 K with ΔCp 1.94 J/(g·K)
-        // (references.md, from memory), 10 % water:
+        // (literature value, from memory), 10 % water:
         // ln Tg = (0.9·0.60·ln 335.15 + 0.1·1.94·ln 136)/(0.54 + 0.194) → Tg = 264.06 K.
         let mut sucrose = part("sucrose", 0.9, 62.0);
         sucrose.delta_cp_j_gk = Some(0.60);
@@ -321,7 +321,7 @@ mod tests {
 
     #[test]
     fn a_sucrose_trehalose_mixture_lies_between_its_components() {
-        // Tg' sucrose −32 °C, trehalose −29.5 °C (references.md, from memory).
+        // Tg' sucrose −32 °C, trehalose −29.5 °C (literature value, from memory).
         let r = mixture_tg(
             MixtureMethod::Fox,
             &[part("sucrose", 1.0, -32.0), part("trehalose", 1.0, -29.5)],

@@ -59,13 +59,13 @@ mod tests {
 
     #[test]
     fn kv_unit_factor_matches_the_published_conversion() {
-        // references.md: 1 cal/(s·cm²·K) = 41 840 W/(m²·K).
+        // literature: 1 cal/(s·cm²·K) = 41 840 W/(m²·K).
         assert_relative_eq!(cal_s_cm2_k_to_w_m2_k(1.0), 41_840.0, max_relative = 1e-12);
     }
 
     #[test]
     fn resistance_unit_factor_matches_the_published_conversion() {
-        // references.md: 1 cm²·Torr·h/g = 4.7996·10⁴ m/s.
+        // literature: 1 cm²·Torr·h/g = 4.7996·10⁴ m/s.
         assert_relative_eq!(cm2_torr_h_g_to_si(1.0), 4.7996e4, max_relative = 1e-4);
     }
 

@@ -696,7 +696,7 @@ mod tests {
     use crate::ice::vapour_pressure_pa;
     use crate::units::mtorr_to_pa;
 
-    /// A conservative cycle for 5 % sucrose (Tg' ≈ −32 °C, references.md from memory) with a
+    /// A conservative cycle for 5 % sucrose (Tg' ≈ −32 °C, literature value from memory) with a
     /// limit of −34 °C; primary hold sized from the model with a wide margin.
     fn cycle(primary_shelf_c: f64, pc_mtorr: f64, primary_hold_min: f64) -> CycleProgram {
         CycleProgram {
