@@ -6,8 +6,7 @@ use axum::response::Response;
 use axum::routing::get;
 use axum::{Form, Router};
 
-use super::formulations::{into_field_errors, unprocessable};
-use super::{options, parse_version, render, see_other};
+use super::{draft_and_version, options, render, saved_or_form};
 use crate::domain::*;
 use crate::{AppError, AppState};
 
@@ -91,19 +90,12 @@ async fn create(
     State(state): State<AppState>,
     Form(form): Form<ContainerForm>,
 ) -> Result<Response, AppError> {
-    let result = match form.parse() {
-        Ok(draft) => state.store.create_container(&draft).await,
-        Err(e) => Err(AppError::Fields(e)),
-    };
-    match result {
-        Ok(_) => Ok(see_other("/containers")),
-        Err(e) => Ok(unprocessable(form_page(
-            "New container".into(),
-            "/containers".into(),
-            form,
-            into_field_errors(e)?,
-        ))),
-    }
+    let result = async { state.store.create_container(&form.parse()?).await }.await;
+    saved_or_form(
+        result,
+        |_| "/containers".into(),
+        |errors| form_page("New container".into(), "/containers".into(), form, errors),
+    )
 }
 
 async fn edit_form(
@@ -124,19 +116,21 @@ async fn update(
     Path(id): Path<i64>,
     Form(form): Form<ContainerForm>,
 ) -> Result<Response, AppError> {
-    let result = match (form.parse(), parse_version(&form.version)) {
-        (Ok(draft), Ok(version)) => state.store.update_container(id, version, &draft).await,
-        (Err(e), _) => Err(AppError::Fields(e)),
-        (_, Err(e)) => Err(e),
-    };
-    match result {
-        Ok(()) => Ok(see_other("/containers")),
-        Err(AppError::NotFound(what)) => Err(AppError::NotFound(what)),
-        Err(e) => Ok(unprocessable(form_page(
-            "Edit container".into(),
-            format!("/containers/{id}"),
-            form,
-            into_field_errors(e)?,
-        ))),
+    let result = async {
+        let (draft, version) = draft_and_version(form.parse(), &form.version)?;
+        state.store.update_container(id, version, &draft).await
     }
+    .await;
+    saved_or_form(
+        result,
+        |()| "/containers".into(),
+        |errors| {
+            form_page(
+                "Edit container".into(),
+                format!("/containers/{id}"),
+                form,
+                errors,
+            )
+        },
+    )
 }

@@ -12,7 +12,7 @@ use glasspoint_science::verdict::{CheckState, CheckTopic, CycleVerdict};
 use serde::Deserialize;
 
 use super::formulations::{into_field_errors, unprocessable};
-use super::{fmt, parse_version, render, see_other, svg};
+use super::{draft_and_version, fmt, render, saved_or_form, see_other, svg};
 use crate::charts::{
     render_heatmap, render_line_chart, HeatmapChart, LineChart, RefLine, Series, SeriesStyle,
 };
@@ -196,20 +196,20 @@ async fn create(
     State(state): State<AppState>,
     Form(form): Form<CycleForm>,
 ) -> Result<Response, AppError> {
-    let result = match form.parse() {
-        Ok(d) => state.store.create_cycle(&d).await,
-        Err(e) => Err(AppError::Fields(e)),
-    };
-    match result {
-        Ok(id) => Ok(see_other(&format!("/cycles/{id}"))),
-        Err(e) => Ok(unprocessable(form_page(
-            "New candidate cycle".into(),
-            "/cycles".into(),
-            "/cycles".into(),
-            form,
-            into_field_errors(e)?,
-        ))),
-    }
+    let result = async { state.store.create_cycle(&form.parse()?).await }.await;
+    saved_or_form(
+        result,
+        |id| format!("/cycles/{id}"),
+        |errors| {
+            form_page(
+                "New candidate cycle".into(),
+                "/cycles".into(),
+                "/cycles".into(),
+                form,
+                errors,
+            )
+        },
+    )
 }
 
 async fn edit_form(
@@ -231,22 +231,24 @@ async fn update(
     Path(id): Path<i64>,
     Form(form): Form<CycleForm>,
 ) -> Result<Response, AppError> {
-    let result = match (form.parse(), parse_version(&form.version)) {
-        (Ok(d), Ok(v)) => state.store.update_cycle(id, v, &d).await,
-        (Err(e), _) => Err(AppError::Fields(e)),
-        (_, Err(e)) => Err(e),
-    };
-    match result {
-        Ok(()) => Ok(see_other(&format!("/cycles/{id}"))),
-        Err(AppError::NotFound(w)) => Err(AppError::NotFound(w)),
-        Err(e) => Ok(unprocessable(form_page(
-            "Edit cycle".into(),
-            format!("/cycles/{id}"),
-            format!("/cycles/{id}"),
-            form,
-            into_field_errors(e)?,
-        ))),
+    let result = async {
+        let (draft, version) = draft_and_version(form.parse(), &form.version)?;
+        state.store.update_cycle(id, version, &draft).await
     }
+    .await;
+    saved_or_form(
+        result,
+        |()| format!("/cycles/{id}"),
+        |errors| {
+            form_page(
+                "Edit cycle".into(),
+                format!("/cycles/{id}"),
+                format!("/cycles/{id}"),
+                form,
+                errors,
+            )
+        },
+    )
 }
 
 /// A name not yet taken: "name (copy)", "name (copy 2)", …

@@ -7,7 +7,7 @@ use axum::routing::{get, post};
 use axum::{Form, Router};
 use serde::Deserialize;
 
-use super::{options, parse_version, render, see_other};
+use super::{draft_and_version, options, render, see_other};
 use crate::domain::*;
 use crate::storage::{FormulationFilter, FormulationSort, FormulationSummary, Page};
 use crate::{AppError, AppState};
@@ -437,11 +437,11 @@ async fn update(
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let mut form = FormulationForm::from_pairs(&pairs);
-    let result = match (form.parse(), parse_version(&form.version)) {
-        (Ok(draft), Ok(version)) => state.store.update_formulation(id, version, &draft).await,
-        (Err(errors), _) => Err(AppError::Fields(errors)),
-        (_, Err(e)) => Err(e),
-    };
+    let result = async {
+        let (draft, version) = draft_and_version(form.parse(), &form.version)?;
+        state.store.update_formulation(id, version, &draft).await
+    }
+    .await;
     match result {
         Ok(()) => Ok(see_other(&format!("/formulations/{id}"))),
         Err(AppError::NotFound(what)) => Err(AppError::NotFound(what)),

@@ -6,8 +6,7 @@ use axum::response::Response;
 use axum::routing::get;
 use axum::{Form, Router};
 
-use super::formulations::{into_field_errors, unprocessable};
-use super::{options, parse_version, render, see_other};
+use super::{draft_and_version, options, render, saved_or_form};
 use crate::domain::*;
 use crate::{AppError, AppState};
 
@@ -134,20 +133,20 @@ async fn create(
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let form = MaterialForm::from_pairs(&pairs);
-    let result = match form.parse() {
-        Ok(draft) => state.store.create_material(&draft).await,
-        Err(e) => Err(AppError::Fields(e)),
-    };
-    match result {
-        Ok(id) => Ok(see_other(&format!("/materials/{id}"))),
-        Err(e) => Ok(unprocessable(form_page(
-            "New material".into(),
-            "/materials".into(),
-            "/materials".into(),
-            form,
-            into_field_errors(e)?,
-        ))),
-    }
+    let result = async { state.store.create_material(&form.parse()?).await }.await;
+    saved_or_form(
+        result,
+        |id| format!("/materials/{id}"),
+        |errors| {
+            form_page(
+                "New material".into(),
+                "/materials".into(),
+                "/materials".into(),
+                form,
+                errors,
+            )
+        },
+    )
 }
 
 async fn edit_form(
@@ -170,20 +169,22 @@ async fn update(
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let form = MaterialForm::from_pairs(&pairs);
-    let result = match (form.parse(), parse_version(&form.version)) {
-        (Ok(draft), Ok(version)) => state.store.update_material(id, version, &draft).await,
-        (Err(e), _) => Err(AppError::Fields(e)),
-        (_, Err(e)) => Err(e),
-    };
-    match result {
-        Ok(()) => Ok(see_other(&format!("/materials/{id}"))),
-        Err(AppError::NotFound(what)) => Err(AppError::NotFound(what)),
-        Err(e) => Ok(unprocessable(form_page(
-            "Edit material".into(),
-            format!("/materials/{id}"),
-            format!("/materials/{id}"),
-            form,
-            into_field_errors(e)?,
-        ))),
+    let result = async {
+        let (draft, version) = draft_and_version(form.parse(), &form.version)?;
+        state.store.update_material(id, version, &draft).await
     }
+    .await;
+    saved_or_form(
+        result,
+        |()| format!("/materials/{id}"),
+        |errors| {
+            form_page(
+                "Edit material".into(),
+                format!("/materials/{id}"),
+                format!("/materials/{id}"),
+                form,
+                errors,
+            )
+        },
+    )
 }

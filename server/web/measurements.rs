@@ -8,7 +8,7 @@ use axum::{Form, Router};
 use serde::Deserialize;
 
 use super::formulations::{into_field_errors, unprocessable};
-use super::{options, parse_version, render, see_other};
+use super::{draft_and_version, options, render, see_other};
 use crate::domain::*;
 use crate::storage::Page;
 use crate::{AppError, AppState};
@@ -145,11 +145,11 @@ async fn update(
     Form(form): Form<MeasurementForm>,
 ) -> Result<Response, AppError> {
     let existing = state.store.get_measurement(id).await?;
-    let result = match (form.parse(today()), parse_version(&form.version)) {
-        (Ok(draft), Ok(version)) => state.store.update_measurement(id, version, &draft).await,
-        (Err(errors), _) => Err(AppError::Fields(errors)),
-        (_, Err(e)) => Err(e),
-    };
+    let result = async {
+        let (draft, version) = draft_and_version(form.parse(today()), &form.version)?;
+        state.store.update_measurement(id, version, &draft).await
+    }
+    .await;
     match result {
         Ok(()) => Ok(see_other(&format!(
             "/formulations/{}",

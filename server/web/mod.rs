@@ -155,6 +155,33 @@ pub fn svg(result: Result<String, crate::charts::ChartError>) -> Response {
     }
 }
 
+/// The draft and the record version of an edit form: field errors first, then a missing
+/// version.
+pub fn draft_and_version<D>(
+    parsed: Result<D, crate::domain::FieldErrors>,
+    version: &str,
+) -> Result<(D, i64), AppError> {
+    let draft = parsed.map_err(AppError::Fields)?;
+    Ok((draft, parse_version(version)?))
+}
+
+/// After a form POST: go to the saved record (303), or re-render the form (422) with every
+/// field error and the user's input; a missing record or an internal failure fails the
+/// request as usual.
+pub fn saved_or_form<T>(
+    result: Result<T, AppError>,
+    to: impl FnOnce(T) -> String,
+    form: impl FnOnce(crate::domain::FieldErrors) -> Response,
+) -> Result<Response, AppError> {
+    match result {
+        Ok(saved) => Ok(see_other(&to(saved))),
+        Err(AppError::NotFound(what)) => Err(AppError::NotFound(what)),
+        Err(e) => Ok(formulations::unprocessable(form(
+            formulations::into_field_errors(e)?,
+        ))),
+    }
+}
+
 /// The hidden `version` field of an edit form.
 pub fn parse_version(raw: &str) -> Result<i64, AppError> {
     raw.trim().parse().map_err(|_| {
