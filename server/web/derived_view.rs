@@ -108,54 +108,9 @@ pub fn view(d: &Derived) -> DerivedView {
         })
         .unwrap_or_else(|| "—".into());
 
-    let (
-        has_limit,
-        limit_value,
-        critical,
-        basis,
-        margin,
-        limit_flagged,
-        limit_reasoning,
-        alternative,
-        alternative_caution,
-    ) = match &d.limit {
-        Some(l) => (
-            true,
-            c(l.max_product_temp_c),
-            c(l.critical_temp_c),
-            basis_label(l.basis).to_string(),
-            format!("{} °C", num1(l.margin_c)),
-            l.flagged,
-            l.reasoning.clone(),
-            l.alternative
-                .as_ref()
-                .map(|a| {
-                    format!(
-                        "Alternative: governed by {} at {}, margin {} °C → {}",
-                        basis_label(a.basis),
-                        c(a.critical_temp_c),
-                        num1(a.margin_c),
-                        c(a.max_product_temp_c)
-                    )
-                })
-                .unwrap_or_default(),
-            l.alternative
-                .as_ref()
-                .map(|a| a.caution.clone())
-                .unwrap_or_default(),
-        ),
-        None => (
-            false,
-            "—".into(),
-            "—".into(),
-            String::new(),
-            String::new(),
-            true,
-            Vec::new(),
-            String::new(),
-            String::new(),
-        ),
-    };
+    let limit = d.limit.as_ref();
+    let alt = limit.and_then(|l| l.alternative.as_ref());
+    let dash = || "—".to_string();
 
     let (anneal_headline, anneal_class, anneal_details, anneal_reasoning, anneal_risks) = match &d
         .annealing
@@ -215,17 +170,28 @@ pub fn view(d: &Derived) -> DerivedView {
         estimate_reasoning,
         measured_tg_prime: d.measured_tg_prime_c.map(c).unwrap_or_else(|| "not measured".into()),
         deviation,
-        has_limit,
-        limit_value,
-        critical,
-        basis,
-        margin,
-        limit_flagged,
-        limit_reasoning,
-        alternative,
-        alternative_caution,
+        has_limit: limit.is_some(),
+        limit_value: limit.map(|l| c(l.max_product_temp_c)).unwrap_or_else(dash),
+        critical: limit.map(|l| c(l.critical_temp_c)).unwrap_or_else(dash),
+        basis: limit.map(|l| basis_label(l.basis).to_string()).unwrap_or_default(),
+        margin: limit.map(|l| format!("{} °C", num1(l.margin_c))).unwrap_or_default(),
+        // No limit at all is as much a reason to look twice as a flagged one.
+        limit_flagged: limit.is_none_or(|l| l.flagged),
+        limit_reasoning: limit.map(|l| l.reasoning.clone()).unwrap_or_default(),
+        alternative: alt
+            .map(|a| {
+                format!(
+                    "Alternative: governed by {} at {}, margin {} °C → {}",
+                    basis_label(a.basis),
+                    c(a.critical_temp_c),
+                    num1(a.margin_c),
+                    c(a.max_product_temp_c)
+                )
+            })
+            .unwrap_or_default(),
+        alternative_caution: alt.map(|a| a.caution.clone()).unwrap_or_default(),
         limit_note: d.limit_note.clone().unwrap_or_default(),
-        has_alternative: d.limit.as_ref().is_some_and(|l| l.alternative.is_some()),
+        has_alternative: alt.is_some(),
         uses_alternative: d.uses_crystalline_limit,
         in_use: d.max_product_temp_c().map(c).unwrap_or_default(),
         anneal_headline,
