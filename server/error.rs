@@ -10,6 +10,12 @@ use crate::domain::{FieldError, FieldErrors};
 pub enum AppError {
     #[error("{0} not found")]
     NotFound(String),
+    /// Nobody is signed in (pages send the browser to the sign-in page instead).
+    #[error("sign-in required")]
+    Unauthorized,
+    /// Signed in, but the role or token scope does not allow this.
+    #[error("forbidden: {0}")]
+    Forbidden(String),
     /// Input that failed a check; the form or request names the field.
     #[error("{}: {}", .0.field, .0.message)]
     Input(FieldError),
@@ -35,6 +41,8 @@ impl AppError {
     pub fn status(&self) -> StatusCode {
         match self {
             AppError::NotFound(_) => StatusCode::NOT_FOUND,
+            AppError::Unauthorized => StatusCode::UNAUTHORIZED,
+            AppError::Forbidden(_) => StatusCode::FORBIDDEN,
             AppError::Input(_) | AppError::Fields(_) => StatusCode::UNPROCESSABLE_ENTITY,
             AppError::Conflict(_) => StatusCode::CONFLICT,
             _ => StatusCode::INTERNAL_SERVER_ERROR,
@@ -51,6 +59,10 @@ impl AppError {
                 .map(|e| format!("{}: {}", e.field, e.message))
                 .unwrap_or_else(|| "invalid input".into()),
             AppError::Conflict(msg) => msg.clone(),
+            AppError::Unauthorized => {
+                "Sign in first: send a session cookie or an API token (Authorization: Bearer …).".into()
+            }
+            AppError::Forbidden(why) => format!("Not allowed: {why}."),
             _ => "Something went wrong on our side. The details were logged.".into(),
         }
     }

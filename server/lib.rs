@@ -6,6 +6,7 @@
 //! lives in the separate `glasspoint_science` crate.
 
 pub mod api;
+pub mod auth;
 pub mod charts;
 pub mod cli;
 pub mod config;

@@ -1,6 +1,7 @@
 //! Candidate cycles through the API: list, get with each link's verdict, create, update,
 //! and link a formulation.
 
+use crate::auth::Actor;
 use axum::extract::{Path, State};
 use axum::http::StatusCode;
 use axum::routing::{get, post};
@@ -134,9 +135,10 @@ pub async fn get_cycle(
     responses((status = 201, body = CycleDetail), (status = 422, body = super::ErrorBody)))]
 pub async fn create_cycle(
     State(state): State<AppState>,
+    actor: Actor,
     ApiJson(input): ApiJson<CycleInput>,
 ) -> Result<(StatusCode, Json<CycleDetail>), ApiError> {
-    let id = state.store.create_cycle(&input.draft()?).await?;
+    let id = state.store.create_cycle(&actor, &input.draft()?).await?;
     let detail = get_cycle(State(state), Path(id)).await?;
     Ok((StatusCode::CREATED, detail))
 }
@@ -147,6 +149,7 @@ pub async fn create_cycle(
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_cycle(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     ApiJson(input): ApiJson<CycleInput>,
 ) -> Result<Json<CycleDetail>, ApiError> {
@@ -157,7 +160,7 @@ pub async fn update_cycle(
             "is required on update: send the version you read",
         )
     })?;
-    state.store.update_cycle(id, version, &draft).await?;
+    state.store.update_cycle(&actor, id, version, &draft).await?;
     get_cycle(State(state), Path(id)).await
 }
 
@@ -166,6 +169,7 @@ pub async fn update_cycle(
     responses((status = 201, body = CycleDetail), (status = 404, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn create_link(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     ApiJson(input): ApiJson<LinkInput>,
 ) -> Result<(StatusCode, Json<CycleDetail>), ApiError> {
@@ -189,7 +193,7 @@ pub async fn create_link(
         container_id: input.container_id.to_string(),
         fill_volume_ml: fill.to_string(),
     };
-    state.store.create_link(id, &form.parse()?).await?;
+    state.store.create_link(&actor, id, &form.parse()?).await?;
     let detail = get_cycle(State(state), Path(id)).await?;
     Ok((StatusCode::CREATED, detail))
 }

@@ -38,6 +38,9 @@ pub struct FormulationInput {
     pub components: Vec<ComponentInput>,
     /// Required on update: the version you read (optimistic locking).
     pub version: Option<i64>,
+    /// Why the record is changed: required when it is reviewed or approved.
+    #[serde(default)]
+    pub reason: String,
 }
 
 impl FormulationInput {
@@ -52,6 +55,7 @@ impl FormulationInput {
             container_id: self.container_id.map(|v| v.to_string()).unwrap_or_default(),
             notes: self.notes.clone(),
             tags: self.tags.join(","),
+            reason: self.reason.clone(),
             version: self.version.map(|v| v.to_string()).unwrap_or_default(),
             components: self
                 .components
@@ -182,9 +186,13 @@ pub struct MeasurementInput {
     pub replicate: Option<i64>,
     #[serde(default)]
     pub notes: String,
-    /// recorded | reviewed
+    /// Ignored on input: a result is recorded, and only a reviewer's signature marks it
+    /// reviewed or rejected.
     pub review_state: Option<String>,
     pub version: Option<i64>,
+    /// Why the record is changed: required when it is reviewed.
+    #[serde(default)]
+    pub reason: String,
 }
 
 impl MeasurementInput {
@@ -202,8 +210,9 @@ impl MeasurementInput {
             measured_on: self.measured_on.clone(),
             replicate: self.replicate.map(|v| v.to_string()).unwrap_or_default(),
             notes: self.notes.clone(),
-            review_state: self.review_state.clone().unwrap_or_default(),
+            review_state: String::new(),
             version: self.version.map(|v| v.to_string()).unwrap_or_default(),
+            reason: self.reason.clone(),
         }
     }
 }

@@ -1,6 +1,7 @@
 //! Record endpoints: list, get, create, update for formulations, materials, measurements
 //! and containers.
 
+use crate::auth::Actor;
 use axum::extract::{Path, Query, State};
 use axum::http::StatusCode;
 use axum::routing::get;
@@ -124,11 +125,12 @@ pub async fn get_formulation(
     responses((status = 201, body = Formulation), (status = 422, body = super::ErrorBody)))]
 pub async fn create_formulation(
     State(state): State<AppState>,
+    actor: Actor,
     ApiJson(input): ApiJson<FormulationInput>,
 ) -> ApiResult<(StatusCode, Json<Formulation>)> {
     let created = async {
         let draft = input.to_form().parse()?;
-        let id = state.store.create_formulation(&draft).await?;
+        let id = state.store.create_formulation(&actor, &draft).await?;
         state.store.get_formulation(id).await
     }
     .await
@@ -142,13 +144,14 @@ pub async fn create_formulation(
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_formulation(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     ApiJson(input): ApiJson<FormulationInput>,
 ) -> ApiResult<Json<Formulation>> {
     let updated = async {
         let draft = input.to_form().parse()?;
         let version = required_version(input.version)?;
-        state.store.update_formulation(id, version, &draft).await?;
+        state.store.update_formulation(&actor, id, version, &draft, &input.reason).await?;
         state.store.get_formulation(id).await
     }
     .await
@@ -177,12 +180,13 @@ pub async fn get_material(
     responses((status = 201, body = Material), (status = 422, body = super::ErrorBody)))]
 pub async fn create_material(
     State(state): State<AppState>,
+    actor: Actor,
     ApiJson(input): ApiJson<MaterialInput>,
 ) -> ApiResult<(StatusCode, Json<Material>)> {
     let form = input.to_form().map_err(AppError::Input)?;
     let created = async {
         let draft = form.parse()?;
-        let id = state.store.create_material(&draft).await?;
+        let id = state.store.create_material(&actor, &draft).await?;
         state.store.get_material(id).await
     }
     .await
@@ -196,6 +200,7 @@ pub async fn create_material(
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_material(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     ApiJson(input): ApiJson<MaterialInput>,
 ) -> ApiResult<Json<Material>> {
@@ -203,7 +208,7 @@ pub async fn update_material(
     let updated = async {
         let draft = form.parse()?;
         let version = required_version(input.version)?;
-        state.store.update_material(id, version, &draft).await?;
+        state.store.update_material(&actor, id, version, &draft).await?;
         state.store.get_material(id).await
     }
     .await
@@ -250,13 +255,14 @@ pub async fn get_measurement(
     responses((status = 201, body = Measurement), (status = 422, body = super::ErrorBody)))]
 pub async fn create_measurement(
     State(state): State<AppState>,
+    actor: Actor,
     ApiJson(input): ApiJson<MeasurementInput>,
 ) -> ApiResult<(StatusCode, Json<Measurement>)> {
     let formulation_id = input
         .formulation_id
         .ok_or_else(|| AppError::input("formulation_id", "is required"))?;
     let draft = input.to_form().parse(today())?;
-    let id = match state.store.create_measurement(formulation_id, &draft).await {
+    let id = match state.store.create_measurement(&actor, formulation_id, &draft).await {
         Err(AppError::NotFound(_)) => {
             return Err(AppError::input(
                 "formulation_id",
@@ -278,12 +284,13 @@ pub async fn create_measurement(
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_measurement(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     ApiJson(input): ApiJson<MeasurementInput>,
 ) -> ApiResult<Json<Measurement>> {
     let draft = input.to_form().parse(today())?;
     let version = required_version(input.version)?;
-    state.store.update_measurement(id, version, &draft).await?;
+    state.store.update_measurement(&actor, id, version, &draft, &input.reason).await?;
     Ok(Json(state.store.get_measurement(id).await?))
 }
 
@@ -308,10 +315,11 @@ pub async fn get_container(
     responses((status = 201, body = Container), (status = 422, body = super::ErrorBody)))]
 pub async fn create_container(
     State(state): State<AppState>,
+    actor: Actor,
     ApiJson(input): ApiJson<ContainerInput>,
 ) -> ApiResult<(StatusCode, Json<Container>)> {
     let draft = input.to_form().parse()?;
-    let id = state.store.create_container(&draft).await?;
+    let id = state.store.create_container(&actor, &draft).await?;
     Ok((
         StatusCode::CREATED,
         Json(state.store.get_container(id).await?),
@@ -324,11 +332,12 @@ pub async fn create_container(
               (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn update_container(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     ApiJson(input): ApiJson<ContainerInput>,
 ) -> ApiResult<Json<Container>> {
     let draft = input.to_form().parse()?;
     let version = required_version(input.version)?;
-    state.store.update_container(id, version, &draft).await?;
+    state.store.update_container(&actor, id, version, &draft).await?;
     Ok(Json(state.store.get_container(id).await?))
 }

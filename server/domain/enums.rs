@@ -131,6 +131,7 @@ labelled_enum!(
     ReviewState {
         Recorded => ("recorded", "Recorded"),
         Reviewed => ("reviewed", "Reviewed"),
+        Rejected => ("rejected", "Rejected"),
     }
 );
 

@@ -502,6 +502,8 @@ pub struct FormulationForm {
     pub tags: String,
     pub version: String,
     pub components: Vec<ComponentRow>,
+    /// Why a reviewed or approved record is changed (required then).
+    pub reason: String,
 }
 
 /// Longest composition a form accepts.
@@ -535,6 +537,7 @@ impl FormulationForm {
             tags: get("tags"),
             version: get("version"),
             components,
+            reason: get("reason"),
         }
     }
 
@@ -559,6 +562,7 @@ impl FormulationForm {
                     unit: c.unit.code().into(),
                 })
                 .collect(),
+            reason: String::new(),
         }
     }
 
@@ -771,6 +775,9 @@ pub struct MeasurementForm {
     pub review_state: String,
     #[serde(default)]
     pub version: String,
+    /// Why a reviewed result is changed (required then).
+    #[serde(default)]
+    pub reason: String,
 }
 
 impl MeasurementForm {
@@ -790,6 +797,7 @@ impl MeasurementForm {
             replicate: m.replicate.to_string(),
             notes: m.notes.clone(),
             review_state: m.review_state.code().into(),
+            reason: String::new(),
             version: m.version.to_string(),
         }
     }

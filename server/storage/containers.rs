@@ -2,8 +2,9 @@
 
 use sqlx::FromRow;
 
-use super::materials::stale_or_missing;
+use super::write::{on_tx, Target};
 use super::{decode, now, on_constraint, on_pool, Store};
+use crate::auth::Actor;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -68,9 +69,10 @@ impl Store {
         to_container(row.ok_or_else(|| AppError::NotFound(format!("Container {id}")))?)
     }
 
-    pub async fn create_container(&self, d: &ContainerDraft) -> Result<i64, AppError> {
+    pub async fn create_container(&self, actor: &Actor, d: &ContainerDraft) -> Result<i64, AppError> {
         let at = now();
-        on_pool!(self, pool => {
+        let mut w = self.begin_write(actor, Target::create(Entity::Container), "").await?;
+        let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO containers (name, kind, nominal_ml, inner_area_cm2, outer_area_cm2, kc_cal_s_cm2_k, \
                  kp_cal_s_cm2_k_torr, kd_per_torr, kv_source, typical_values, notes, version, created_at, updated_at) \
@@ -88,25 +90,30 @@ impl Store {
             .bind(d.typical_values)
             .bind(&d.notes)
             .bind(at)
-            .fetch_one(pool)
+            .fetch_one(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "name", DUPLICATE))?;
-            Ok(id)
-        })
+            id
+        });
+        w.finish(id).await?;
+        Ok(id)
     }
 
     pub async fn update_container(
         &self,
+        actor: &Actor,
         id: i64,
         version: i64,
         d: &ContainerDraft,
     ) -> Result<(), AppError> {
-        let at = now();
-        let done = on_pool!(self, pool => {
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Container, id, Some(version)), "")
+            .await?;
+        on_tx!(&mut w.tx, c => {
             sqlx::query(
                 "UPDATE containers SET name = $1, kind = $2, nominal_ml = $3, inner_area_cm2 = $4, outer_area_cm2 = $5, \
                  kc_cal_s_cm2_k = $6, kp_cal_s_cm2_k_torr = $7, kd_per_torr = $8, kv_source = $9, typical_values = $10, \
-                 notes = $11, version = version + 1, updated_at = $12 WHERE id = $13 AND version = $14",
+                 notes = $11 WHERE id = $12",
             )
             .bind(&d.name)
             .bind(d.kind.code())
@@ -119,17 +126,12 @@ impl Store {
             .bind(&d.kv_source)
             .bind(d.typical_values)
             .bind(&d.notes)
-            .bind(at)
             .bind(id)
-            .bind(version)
-            .execute(pool)
+            .execute(&mut **c)
             .await
-            .map_err(|e| on_constraint(e, "name", DUPLICATE))?
-            .rows_affected()
+            .map_err(|e| on_constraint(e, "name", DUPLICATE))?;
         });
-        if done == 0 {
-            return Err(stale_or_missing(self, "Container", id).await);
-        }
+        w.finish(id).await?;
         Ok(())
     }
 }

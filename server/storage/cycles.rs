@@ -6,8 +6,9 @@ use glasspoint_science::verdict::{
 };
 use sqlx::FromRow;
 
-use super::materials::stale_or_missing;
+use super::write::{on_tx, Target};
 use super::{decode, now, on_constraint, on_pool, Store};
+use crate::auth::Actor;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -174,66 +175,73 @@ impl Store {
         Ok(row.map(|r| r.0))
     }
 
-    pub async fn create_cycle(&self, d: &CycleDraft) -> Result<i64, AppError> {
+    pub async fn create_cycle(&self, actor: &Actor, d: &CycleDraft) -> Result<i64, AppError> {
         let at = now();
         let sql = format!(
             "INSERT INTO cycles ({COLUMNS}, version, created_at, updated_at) VALUES \
              ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, 1, $20, $20) RETURNING id"
         );
-        on_pool!(self, pool => {
+        let mut w = self.begin_write(actor, Target::create(Entity::Cycle), "").await?;
+        let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = bind_cycle!(sqlx::query_as(&sql), d, CycleStatus::Candidate.code())
                 .bind(at)
-                .fetch_one(pool)
+                .fetch_one(&mut **c)
                 .await
                 .map_err(|e| on_constraint(e, "name", DUPLICATE))?;
-            Ok(id)
-        })
+            id
+        });
+        w.finish(id).await?;
+        Ok(id)
     }
 
     pub async fn update_cycle(
         &self,
+        actor: &Actor,
         id: i64,
         version: i64,
         d: &CycleDraft,
     ) -> Result<(), AppError> {
-        let current = self.get_cycle(id).await?;
-        let at = now();
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Cycle, id, Some(version)), "")
+            .await?;
+        let status = w
+            .before()
+            .and_then(|b| b.content.get("status"))
+            .and_then(|v| v.as_str())
+            .unwrap_or(CycleStatus::Candidate.code())
+            .to_string();
         let sql = "UPDATE cycles SET name = $1, status = $2, notes = $3, freeze_ramp_c_min = $4, freeze_hold_c = $5, \
              freeze_hold_min = $6, anneal_temp_c = $7, anneal_hold_min = $8, anneal_return_ramp_c_min = $9, \
              primary_ramp_c_min = $10, primary_shelf_c = $11, primary_pressure_mtorr = $12, primary_hold_min = $13, \
              secondary_ramp_c_min = $14, secondary_shelf_c = $15, secondary_pressure_mtorr = $16, secondary_hold_min = $17, \
-             condenser_temp_c = $18, sublimation_ceiling_kg_h_m2 = $19, version = version + 1, updated_at = $20 \
-             WHERE id = $21 AND version = $22";
-        let done = on_pool!(self, pool => {
-            bind_cycle!(sqlx::query(sql), d, current.status.code())
-                .bind(at)
+             condenser_temp_c = $18, sublimation_ceiling_kg_h_m2 = $19 WHERE id = $20";
+        on_tx!(&mut w.tx, c => {
+            bind_cycle!(sqlx::query(sql), d, status.as_str())
                 .bind(id)
-                .bind(version)
-                .execute(pool)
+                .execute(&mut **c)
                 .await
-                .map_err(|e| on_constraint(e, "name", DUPLICATE))?
-                .rows_affected()
+                .map_err(|e| on_constraint(e, "name", DUPLICATE))?;
         });
-        if done == 0 {
-            return Err(stale_or_missing(self, "Cycle", id).await);
-        }
+        w.finish(id).await?;
         Ok(())
     }
 
-    pub async fn set_cycle_status(&self, id: i64, status: CycleStatus) -> Result<(), AppError> {
-        let at = now();
-        let done = on_pool!(self, pool => {
-            sqlx::query("UPDATE cycles SET status = $1, version = version + 1, updated_at = $2 WHERE id = $3")
+    /// Archives or restores a cycle; nothing is deleted.
+    pub async fn set_cycle_status(&self, actor: &Actor, id: i64, status: CycleStatus) -> Result<(), AppError> {
+        let action = if status == CycleStatus::Archived {
+            Action::Archive
+        } else {
+            Action::Restore
+        };
+        let mut w = self.begin_write(actor, Target::with(Entity::Cycle, id, action), "").await?;
+        on_tx!(&mut w.tx, c => {
+            sqlx::query("UPDATE cycles SET status = $1 WHERE id = $2")
                 .bind(status.code())
-                .bind(at)
                 .bind(id)
-                .execute(pool)
-                .await?
-                .rows_affected()
+                .execute(&mut **c)
+                .await?;
         });
-        if done == 0 {
-            return Err(AppError::NotFound(format!("Cycle {id}")));
-        }
+        w.finish(id).await?;
         Ok(())
     }
 
@@ -274,7 +282,8 @@ impl Store {
             .ok_or_else(|| AppError::NotFound(format!("Cycle link {link_id}")))
     }
 
-    pub async fn create_link(&self, cycle_id: i64, d: &LinkDraft) -> Result<i64, AppError> {
+    /// Links a formulation to a cycle: a change of the cycle, in its history.
+    pub async fn create_link(&self, actor: &Actor, cycle_id: i64, d: &LinkDraft) -> Result<i64, AppError> {
         // Name the field that is wrong rather than failing on the foreign key.
         self.get_cycle(cycle_id).await?;
         if let Err(AppError::NotFound(_)) = self.get_formulation(d.formulation_id).await {
@@ -284,7 +293,10 @@ impl Store {
             return Err(AppError::input("container_id", "unknown container"));
         }
         let at = now();
-        on_pool!(self, pool => {
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Cycle, cycle_id, None), "")
+            .await?;
+        let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO cycle_links (cycle_id, formulation_id, container_id, fill_volume_ml, created_at) \
                  VALUES ($1, $2, $3, $4, $5) RETURNING id",
@@ -294,26 +306,33 @@ impl Store {
             .bind(d.container_id)
             .bind(d.fill_volume_ml)
             .bind(at)
-            .fetch_one(pool)
+            .fetch_one(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "formulation_id", "this formulation is already linked to the cycle in that container"))?;
-            Ok(id)
-        })
+            id
+        });
+        w.finish(cycle_id).await?;
+        Ok(id)
     }
 
-    /// Unlinks a formulation from a cycle (the link holds no data of its own).
-    pub async fn delete_link(&self, cycle_id: i64, link_id: i64) -> Result<(), AppError> {
-        let done = on_pool!(self, pool => {
+    /// Unlinks a formulation from a cycle (the link holds no data of its own; the cycle's
+    /// history keeps it).
+    pub async fn delete_link(&self, actor: &Actor, cycle_id: i64, link_id: i64) -> Result<(), AppError> {
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Cycle, cycle_id, None), "")
+            .await?;
+        let done = on_tx!(&mut w.tx, c => {
             sqlx::query("DELETE FROM cycle_links WHERE id = $1 AND cycle_id = $2")
                 .bind(link_id)
                 .bind(cycle_id)
-                .execute(pool)
+                .execute(&mut **c)
                 .await?
                 .rows_affected()
         });
         if done == 0 {
             return Err(AppError::NotFound(format!("Cycle link {link_id}")));
         }
+        w.finish(cycle_id).await?;
         Ok(())
     }
 
@@ -342,46 +361,57 @@ impl Store {
         }))
     }
 
-    /// Records (or replaces) a formulation's measured resistance.
+    /// Records (or replaces) a formulation's measured resistance: a change of the
+    /// formulation, in its history.
     pub async fn set_resistance(
         &self,
+        actor: &Actor,
         formulation_id: i64,
         r: &Resistance,
         source: &str,
         version: Option<i64>,
     ) -> Result<(), AppError> {
-        self.get_formulation(formulation_id).await?;
         let at = now();
-        let existing = self.measured_resistance(formulation_id).await?;
-        match (existing, version) {
-            (Some(current), Some(v)) if current.version != v => {
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Formulation, formulation_id, None), "")
+            .await?;
+        let current: Option<i64> = w
+            .before()
+            .and_then(|b| b.content.get("dry_layer_resistance"))
+            .and_then(|v| v.as_array())
+            .and_then(|rows| rows.first())
+            .and_then(|row| row.get("version"))
+            .and_then(|v| v.as_i64());
+        match (current, version) {
+            (Some(current), Some(v)) if current != v => {
                 return Err(AppError::Conflict(
-                    "The resistance was changed by someone else after you opened it. Reload to see their values.".into(),
+                    "The resistance was changed by someone else after you opened it. Your values are kept below; reload to see theirs.".into(),
                 ))
             }
             (Some(_), _) => {
-                on_pool!(self, pool => {
+                on_tx!(&mut w.tx, c => {
                     sqlx::query(
                         "UPDATE dry_layer_resistance SET r0_cm2_torr_h_g = $1, a1_cm_torr_h_g = $2, a2_per_cm = $3, \
                          source = $4, version = version + 1, updated_at = $5 WHERE formulation_id = $6",
                     )
                     .bind(r.r0_cm2_torr_h_g).bind(r.a1_cm_torr_h_g).bind(r.a2_per_cm).bind(source).bind(at).bind(formulation_id)
-                    .execute(pool)
+                    .execute(&mut **c)
                     .await?;
                 });
             }
             (None, _) => {
-                on_pool!(self, pool => {
+                on_tx!(&mut w.tx, c => {
                     sqlx::query(
                         "INSERT INTO dry_layer_resistance (formulation_id, r0_cm2_torr_h_g, a1_cm_torr_h_g, a2_per_cm, source, version, updated_at) \
                          VALUES ($1, $2, $3, $4, $5, 1, $6)",
                     )
                     .bind(formulation_id).bind(r.r0_cm2_torr_h_g).bind(r.a1_cm_torr_h_g).bind(r.a2_per_cm).bind(source).bind(at)
-                    .execute(pool)
+                    .execute(&mut **c)
                     .await?;
                 });
             }
         }
+        w.finish(formulation_id).await?;
         Ok(())
     }
 }

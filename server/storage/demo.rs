@@ -5,6 +5,9 @@ use serde::Deserialize;
 
 use super::library::LibraryMaterial;
 use super::Store;
+use super::{NewUser, SignRequest};
+use crate::auth::secrets::{hash_password, random_hex};
+use crate::auth::Actor;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -89,21 +92,68 @@ struct DemoMeasurement {
 /// What a demo load added.
 #[derive(Debug, Default, PartialEq, Eq)]
 pub struct DemoReport {
+    /// Demo accounts created by this run, with their one-time passwords.
+    pub new_users: Vec<(String, Role, String)>,
+    /// Demo accounts that existed already (their passwords are not known any more).
+    pub existing_users: Vec<String>,
     pub materials: usize,
     pub formulations: usize,
     pub measurements: usize,
     pub cycles: usize,
 }
 
+/// The demo team: invented people of the invented company.
+const DEMO_USERS: [(&str, &str, Role); 3] = [
+    ("mhollis", "Maren Hollis", Role::Scientist),
+    ("tokafor", "Tobias Okafor", Role::Reviewer),
+    ("iravel", "Ines Ravel", Role::Admin),
+];
+
 fn bad_demo(msg: String) -> AppError {
     AppError::Internal(format!("seed-demo/demo.json: {msg}"))
 }
 
 impl Store {
+    /// The demo's scientist, reviewer and administrator, created with fresh random
+    /// passwords when missing (the passwords are reported once and stored only hashed).
+    async fn demo_users(&self, report: &mut DemoReport) -> Result<[Actor; 3], AppError> {
+        let installer = Actor::system();
+        let mut actors = Vec::new();
+        for (username, full_name, role) in DEMO_USERS {
+            let user = match self.user_by_name(username).await? {
+                Some((user, _)) => {
+                    report.existing_users.push(username.to_string());
+                    user
+                }
+                None => {
+                    let password = random_hex(8);
+                    let id = self
+                        .create_user(
+                            &installer,
+                            &NewUser {
+                                username,
+                                full_name,
+                                role,
+                                password_hash: &hash_password(&password)?,
+                            },
+                        )
+                        .await?;
+                    report.new_users.push((username.to_string(), role, password));
+                    self.get_user(id).await?
+                }
+            };
+            actors.push(user.actor(true));
+        }
+        actors
+            .try_into()
+            .map_err(|_| AppError::Internal("three demo users".into()))
+    }
+
     /// Loads the demo scenario; running it again adds nothing.
     pub async fn seed_demo(&self) -> Result<DemoReport, AppError> {
         let demo: Demo = serde_json::from_str(DEMO_JSON).map_err(|e| bad_demo(e.to_string()))?;
         let mut report = DemoReport::default();
+        let [scientist, reviewer, _admin] = self.demo_users(&mut report).await?;
         let mut materials = self.list_materials().await?;
         for m in demo.materials {
             if materials
@@ -119,7 +169,7 @@ impl Store {
                 notes: m.notes,
                 properties: Vec::new(),
             };
-            self.insert_material(&draft, false).await?;
+            self.insert_material(&scientist, &draft, false).await?;
             report.materials += 1;
         }
         if report.materials > 0 {
@@ -127,10 +177,13 @@ impl Store {
         }
         let containers = self.list_containers().await?;
         let today = time::OffsetDateTime::now_utc().date();
-        for f in demo.formulations {
+        let count = demo.formulations.len();
+        for (index, f) in demo.formulations.into_iter().enumerate() {
             if self.formulation_id_by_code(&f.code).await?.is_some() {
                 continue;
             }
+            // The newest two formulations' results still wait for review, as in a real lab.
+            let reviewed = index + 2 < count;
             let components = f
                 .components
                 .iter()
@@ -161,7 +214,11 @@ impl Store {
                 code: f.code.clone(),
                 name: f.name,
                 project: f.project,
-                status: f.status,
+                status: if f.status == FormulationStatus::Approved {
+                    FormulationStatus::Characterized
+                } else {
+                    f.status
+                },
                 ph: f.ph,
                 fill_volume_ml: f.fill_volume_ml,
                 container_id,
@@ -169,11 +226,12 @@ impl Store {
                 tags: f.tags,
                 components,
             };
-            let id = self.create_formulation(&draft).await?;
+            let id = self.create_formulation(&scientist, &draft).await?;
             report.formulations += 1;
             if f.limit_basis.as_deref() == Some("crystalline") {
-                self.set_limit_basis(id, true).await?;
+                self.set_limit_basis(&scientist, id, true).await?;
             }
+            let mut first_measurement = None;
             for m in f.measurements {
                 // Demo rows go through the same checks as typed ones.
                 let form = MeasurementForm {
@@ -195,14 +253,63 @@ impl Store {
                     measured_on: m.measured_on,
                     replicate: m.replicate.to_string(),
                     notes: m.notes,
-                    review_state: "reviewed".into(),
+                    review_state: String::new(),
                     version: String::new(),
+                    reason: String::new(),
                 };
                 let draft = form
                     .parse(today)
                     .map_err(|e| bad_demo(format!("{}: {:?}", f.code, e.first())))?;
-                self.create_measurement(id, &draft).await?;
+                let mid = self.create_measurement(&scientist, id, &draft).await?;
+                first_measurement.get_or_insert((mid, draft));
                 report.measurements += 1;
+                if reviewed {
+                    self.sign(
+                        &reviewer,
+                        &SignRequest {
+                            entity: Entity::Measurement,
+                            id: mid,
+                            version: 1,
+                            meaning: SignatureMeaning::Reviewed,
+                            reason: "",
+                        },
+                    )
+                    .await?;
+                }
+            }
+            if f.status == FormulationStatus::Approved {
+                let version = self.get_formulation(id).await?.version;
+                self.sign(
+                    &reviewer,
+                    &SignRequest {
+                        entity: Entity::Formulation,
+                        id,
+                        version,
+                        meaning: SignatureMeaning::Approved,
+                        reason: "",
+                    },
+                )
+                .await?;
+            }
+            // One corrected result per reviewed formulation's first measurement of the first
+            // formulation: a new version with its reason; the signature stays with version 1.
+            if index == 0 {
+                if let Some((mid, mut draft)) = first_measurement {
+                    draft.notes = format!(
+                        "{} Baseline re-integrated after the instrument's calibration check; value unchanged.",
+                        draft.notes
+                    )
+                    .trim()
+                    .to_string();
+                    self.update_measurement(
+                        &scientist,
+                        mid,
+                        2,
+                        &draft,
+                        "Baseline re-integrated after the calibration check",
+                    )
+                    .await?;
+                }
             }
         }
         for c in demo.cycles {
@@ -219,7 +326,7 @@ impl Store {
             glasspoint_science::verdict::validate_cycle(&program)
                 .map_err(|e| bad_demo(format!("cycle {}: {e}", c.name)))?;
             let id = self
-                .create_cycle(&CycleDraft {
+                .create_cycle(&scientist, &CycleDraft {
                     name: c.name.clone(),
                     notes: c.notes,
                     program,
@@ -248,6 +355,7 @@ impl Store {
                         ))
                     })?;
                 self.create_link(
+                    &scientist,
                     id,
                     &LinkDraft {
                         formulation_id,

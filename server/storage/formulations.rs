@@ -3,8 +3,9 @@
 use sqlx::FromRow;
 use time::OffsetDateTime;
 
-use super::materials::stale_or_missing;
+use super::write::{on_tx, Target};
 use super::{decode, now, on_constraint, on_pool, Store};
+use crate::auth::Actor;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -186,7 +187,7 @@ macro_rules! check_references {
         for (i, c) in $d.components.iter().enumerate() {
             let (n,): (i64,) = sqlx::query_as("SELECT COUNT(*) FROM materials WHERE id = $1")
                 .bind(c.material_id)
-                .fetch_one(&mut *$tx)
+                .fetch_one(&mut **$tx)
                 .await?;
             if n == 0 {
                 return Err(AppError::input(
@@ -198,7 +199,7 @@ macro_rules! check_references {
         if let Some(container) = $d.container_id {
             let (n,): (i64,) = sqlx::query_as("SELECT COUNT(*) FROM containers WHERE id = $1")
                 .bind(container)
-                .fetch_one(&mut *$tx)
+                .fetch_one(&mut **$tx)
                 .await?;
             if n == 0 {
                 return Err(AppError::input("container_id", "unknown container"));
@@ -221,7 +222,7 @@ macro_rules! insert_components {
             .bind(c.material_id)
             .bind(c.concentration)
             .bind(c.unit.code())
-            .execute(&mut *$tx)
+            .execute(&mut **$tx)
             .await?;
         }
     };
@@ -396,11 +397,12 @@ impl Store {
         Ok(row.map(|r| r.0))
     }
 
-    pub async fn create_formulation(&self, d: &FormulationDraft) -> Result<i64, AppError> {
+    pub async fn create_formulation(&self, actor: &Actor, d: &FormulationDraft) -> Result<i64, AppError> {
+        refuse_approved_by_form(d.status, None)?;
         let at = now();
-        on_pool!(self, pool => {
-            let mut tx = pool.begin().await?;
-            check_references!(tx, d);
+        let mut w = self.begin_write(actor, Target::create(Entity::Formulation), "").await?;
+        let id = on_tx!(&mut w.tx, c => {
+            check_references!(c, d);
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO formulations (code, name, project, status, ph, fill_volume_ml, container_id, notes, tags, \
                  version, created_at, updated_at) VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, 1, $10, $10) RETURNING id",
@@ -415,103 +417,125 @@ impl Store {
             .bind(&d.notes)
             .bind(d.tags.join(", "))
             .bind(at)
-            .fetch_one(&mut *tx)
+            .fetch_one(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "code", "another formulation already uses this code"))?;
-            insert_components!(tx, id, d);
-            tx.commit().await?;
-            Ok(id)
-        })
+            insert_components!(c, id, d);
+            id
+        });
+        w.finish(id).await?;
+        Ok(id)
     }
 
+    /// Saves an edit made on `version`. A reviewed or approved formulation needs a
+    /// `reason`, and an approved one goes back to "characterized" until approved again
+    /// (see the write path).
     pub async fn update_formulation(
         &self,
+        actor: &Actor,
         id: i64,
         version: i64,
         d: &FormulationDraft,
+        reason: &str,
     ) -> Result<(), AppError> {
-        let at = now();
-        on_pool!(self, pool => {
-            let mut tx = pool.begin().await?;
-            check_references!(tx, d);
-            let done = sqlx::query(
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Formulation, id, Some(version)), reason)
+            .await?;
+        let current = w
+            .before()
+            .and_then(|b| b.content.get("status"))
+            .and_then(|v| v.as_str())
+            .and_then(FormulationStatus::parse);
+        refuse_approved_by_form(d.status, current)?;
+        let status = d.status;
+        on_tx!(&mut w.tx, c => {
+            check_references!(c, d);
+            sqlx::query(
                 "UPDATE formulations SET code = $1, name = $2, project = $3, status = $4, ph = $5, fill_volume_ml = $6, \
-                 container_id = $7, notes = $8, tags = $9, version = version + 1, updated_at = $10 \
-                 WHERE id = $11 AND version = $12",
+                 container_id = $7, notes = $8, tags = $9 WHERE id = $10",
             )
             .bind(&d.code)
             .bind(&d.name)
             .bind(&d.project)
-            .bind(d.status.code())
+            .bind(status.code())
             .bind(d.ph)
             .bind(d.fill_volume_ml)
             .bind(d.container_id)
             .bind(&d.notes)
             .bind(d.tags.join(", "))
-            .bind(at)
             .bind(id)
-            .bind(version)
-            .execute(&mut *tx)
+            .execute(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "code", "another formulation already uses this code"))?;
-            if done.rows_affected() == 0 {
-                tx.rollback().await?;
-                return Err(stale_or_missing(self, "Formulation", id).await);
-            }
             sqlx::query("DELETE FROM formulation_components WHERE formulation_id = $1")
                 .bind(id)
-                .execute(&mut *tx)
+                .execute(&mut **c)
                 .await?;
-            insert_components!(tx, id, d);
-            tx.commit().await?;
-            Ok(())
-        })
+            insert_components!(c, id, d);
+        });
+        w.finish(id).await?;
+        Ok(())
     }
 
     /// Chooses which limit the formulation's cycle checks use (see `limit_basis`).
-    pub async fn set_limit_basis(&self, id: i64, crystalline: bool) -> Result<(), AppError> {
-        let at = now();
+    pub async fn set_limit_basis(&self, actor: &Actor, id: i64, crystalline: bool) -> Result<(), AppError> {
         let basis = if crystalline {
             "crystalline"
         } else {
             "amorphous"
         };
-        let done = on_pool!(self, pool => {
-            sqlx::query("UPDATE formulations SET limit_basis = $1, version = version + 1, updated_at = $2 WHERE id = $3")
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Formulation, id, None), "choice of the limit's basis")
+            .await?;
+        on_tx!(&mut w.tx, c => {
+            sqlx::query("UPDATE formulations SET limit_basis = $1 WHERE id = $2")
                 .bind(basis)
-                .bind(at)
                 .bind(id)
-                .execute(pool)
-                .await?
-                .rows_affected()
+                .execute(&mut **c)
+                .await?;
         });
-        if done == 0 {
-            return Err(AppError::NotFound(format!("Formulation {id}")));
-        }
+        w.finish(id).await?;
         Ok(())
     }
 
-    /// Archives a formulation: it leaves the default list but keeps every record.
+    /// Archives (or restores) a formulation: it leaves the default list but keeps every
+    /// record; nothing is deleted.
     pub async fn set_formulation_status(
         &self,
+        actor: &Actor,
         id: i64,
         status: FormulationStatus,
     ) -> Result<(), AppError> {
-        let at = now();
-        let done = on_pool!(self, pool => {
-            sqlx::query("UPDATE formulations SET status = $1, version = version + 1, updated_at = $2 WHERE id = $3")
+        let action = if status == FormulationStatus::Archived {
+            Action::Archive
+        } else {
+            Action::Restore
+        };
+        let mut w = self.begin_write(actor, Target::with(Entity::Formulation, id, action), "").await?;
+        on_tx!(&mut w.tx, c => {
+            sqlx::query("UPDATE formulations SET status = $1 WHERE id = $2")
                 .bind(status.code())
-                .bind(at)
                 .bind(id)
-                .execute(pool)
-                .await?
-            .rows_affected()
+                .execute(&mut **c)
+                .await?;
         });
-        if done == 0 {
-            return Err(AppError::NotFound(format!("Formulation {id}")));
-        }
+        w.finish(id).await?;
         Ok(())
     }
+}
+
+/// "Approved" is a reviewer's signature, not a choice on a form.
+fn refuse_approved_by_form(
+    wanted: FormulationStatus,
+    current: Option<FormulationStatus>,
+) -> Result<(), AppError> {
+    if wanted == FormulationStatus::Approved && current != Some(FormulationStatus::Approved) {
+        return Err(AppError::input(
+            "status",
+            "a formulation becomes approved only through a reviewer's signature",
+        ));
+    }
+    Ok(())
 }
 
 /// A number without trailing zeros, for compact composition text.

@@ -50,6 +50,7 @@ pub fn shipped_materials() -> Result<Vec<LibraryMaterial>, AppError> {
 }
 
 pub(super) async fn install_if_missing(store: &Store) -> Result<(), AppError> {
+    let installer = crate::auth::Actor::system();
     let done: Option<(String,)> = on_pool!(store, pool => {
         sqlx::query_as("SELECT value FROM app_meta WHERE key = $1")
             .bind(MARKER)
@@ -87,7 +88,7 @@ pub(super) async fn install_if_missing(store: &Store) -> Result<(), AppError> {
                 })
                 .collect(),
         };
-        store.insert_material(&draft, true).await?;
+        store.insert_material(&installer, &draft, true).await?;
     }
     let vials: Vec<LibraryVial> = serde_json::from_str(VIALS_JSON)
         .map_err(|e| AppError::Internal(format!("shipped vials.json is invalid: {e}")))?;
@@ -102,7 +103,7 @@ pub(super) async fn install_if_missing(store: &Store) -> Result<(), AppError> {
             continue;
         }
         store
-            .create_container(&ContainerDraft {
+            .create_container(&installer, &ContainerDraft {
                 name: v.name,
                 kind: v.kind,
                 nominal_ml: v.nominal_ml,

@@ -4,7 +4,9 @@ use std::collections::HashMap;
 
 use sqlx::FromRow;
 
+use super::write::{on_tx, Target};
 use super::{decode, now, on_constraint, on_pool, Store};
+use crate::auth::Actor;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -88,7 +90,7 @@ macro_rules! insert_property {
         .bind($p.source_kind.code())
         .bind(&$p.citation)
         .bind(join_ids(&$p.measurement_ids))
-        .execute(&mut *$tx)
+        .execute(&mut **$tx)
         .await?;
     };
 }
@@ -139,18 +141,19 @@ impl Store {
         to_material(row, props)
     }
 
-    pub async fn create_material(&self, draft: &MaterialDraft) -> Result<i64, AppError> {
-        self.insert_material(draft, false).await
+    pub async fn create_material(&self, actor: &Actor, draft: &MaterialDraft) -> Result<i64, AppError> {
+        self.insert_material(actor, draft, false).await
     }
 
     pub(super) async fn insert_material(
         &self,
+        actor: &Actor,
         draft: &MaterialDraft,
         from_library: bool,
     ) -> Result<i64, AppError> {
         let at = now();
-        on_pool!(self, pool => {
-            let mut tx = pool.begin().await?;
+        let mut w = self.begin_write(actor, Target::create(Entity::Material), "").await?;
+        let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO materials (name, role, freezing_behaviour, notes, from_library, version, created_at, updated_at) \
                  VALUES ($1, $2, $3, $4, $5, 1, $6, $6) RETURNING id",
@@ -161,110 +164,77 @@ impl Store {
             .bind(&draft.notes)
             .bind(from_library)
             .bind(at)
-            .fetch_one(&mut *tx)
+            .fetch_one(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "name", "a material with this name already exists"))?;
             for p in &draft.properties {
-                insert_property!(tx, id, p);
+                insert_property!(c, id, p);
             }
-            tx.commit().await?;
-            Ok(id)
-        })
+            id
+        });
+        w.finish(id).await?;
+        Ok(id)
     }
 
     /// Replaces a material's fields and properties, if nobody changed it since `version`.
     pub async fn update_material(
         &self,
+        actor: &Actor,
         id: i64,
         version: i64,
         draft: &MaterialDraft,
     ) -> Result<(), AppError> {
-        let at = now();
-        on_pool!(self, pool => {
-            let mut tx = pool.begin().await?;
-            let done = sqlx::query(
-                "UPDATE materials SET name = $1, role = $2, freezing_behaviour = $3, notes = $4, \
-                 version = version + 1, updated_at = $5 WHERE id = $6 AND version = $7",
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Material, id, Some(version)), "")
+            .await?;
+        on_tx!(&mut w.tx, c => {
+            sqlx::query(
+                "UPDATE materials SET name = $1, role = $2, freezing_behaviour = $3, notes = $4 WHERE id = $5",
             )
             .bind(&draft.name)
             .bind(draft.role.code())
             .bind(draft.freezing_behaviour.code())
             .bind(&draft.notes)
-            .bind(at)
             .bind(id)
-            .bind(version)
-            .execute(&mut *tx)
+            .execute(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "name", "a material with this name already exists"))?;
-            if done.rows_affected() == 0 {
-                tx.rollback().await?;
-                return Err(stale_or_missing(self, "Material", id).await);
-            }
             sqlx::query("DELETE FROM material_properties WHERE material_id = $1")
                 .bind(id)
-                .execute(&mut *tx)
+                .execute(&mut **c)
                 .await?;
             for p in &draft.properties {
-                insert_property!(tx, id, p);
+                insert_property!(c, id, p);
             }
-            tx.commit().await?;
-            Ok(())
-        })
+        });
+        w.finish(id).await?;
+        Ok(())
     }
 
     /// Sets one property of a material (e.g. an in-house fitted value), replacing any
     /// earlier value of that kind.
     pub async fn set_material_property(
         &self,
+        actor: &Actor,
         material_id: i64,
         property: &PropertyDraft,
     ) -> Result<(), AppError> {
-        let at = now();
-        on_pool!(self, pool => {
-            let mut tx = pool.begin().await?;
-            let done = sqlx::query("UPDATE materials SET version = version + 1, updated_at = $1 WHERE id = $2")
-                .bind(at)
-                .bind(material_id)
-                .execute(&mut *tx)
-                .await?;
-            if done.rows_affected() == 0 {
-                tx.rollback().await?;
-                return Err(AppError::NotFound(format!("Material {material_id}")));
-            }
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Material, material_id, None), "")
+            .await?;
+        on_tx!(&mut w.tx, c => {
             sqlx::query("DELETE FROM material_properties WHERE material_id = $1 AND kind = $2")
                 .bind(material_id)
                 .bind(property.kind.code())
-                .execute(&mut *tx)
+                .execute(&mut **c)
                 .await?;
-            insert_property!(tx, material_id, property);
-            tx.commit().await?;
-            Ok(())
-        })
+            insert_property!(c, material_id, property);
+        });
+        w.finish(material_id).await?;
+        Ok(())
     }
 }
 
 fn join_ids(ids: &[i64]) -> String {
     ids.iter().map(i64::to_string).collect::<Vec<_>>().join(",")
-}
-
-/// After an update touched no row: the record is gone, or someone saved first.
-pub(super) async fn stale_or_missing(store: &Store, what: &str, id: i64) -> AppError {
-    let table = match what {
-        "Material" => "materials",
-        "Container" => "containers",
-        "Formulation" => "formulations",
-        "Cycle" => "cycles",
-        _ => "measurements",
-    };
-    let sql = format!("SELECT COUNT(*) FROM {table} WHERE id = $1");
-    let exists: Result<(i64,), sqlx::Error> = on_pool!(store, pool => {
-        sqlx::query_as(&sql).bind(id).fetch_one(pool).await
-    });
-    match exists {
-        Ok((0,)) => AppError::NotFound(format!("{what} {id}")),
-        Ok(_) => AppError::Conflict(format!(
-            "{what} {id} was changed by someone else after you opened it. Reload it to see their change, then apply yours again."
-        )),
-        Err(e) => AppError::Database(e),
-    }
 }

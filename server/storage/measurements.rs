@@ -3,8 +3,9 @@
 use sqlx::FromRow;
 use time::{Date, OffsetDateTime};
 
-use super::materials::stale_or_missing;
+use super::write::{on_tx, Target};
 use super::{decode, now, on_pool, Store};
+use crate::auth::Actor;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -123,17 +124,20 @@ impl Store {
         to_measurement(row.ok_or_else(|| AppError::NotFound(format!("Measurement {id}")))?)
     }
 
+    /// Records a result. Its review state starts at "recorded": only a reviewer's
+    /// signature moves it on.
     pub async fn create_measurement(
         &self,
+        actor: &Actor,
         formulation_id: i64,
         d: &MeasurementDraft,
     ) -> Result<i64, AppError> {
         let at = now();
-        on_pool!(self, pool => {
-            let mut tx = pool.begin().await?;
+        let mut w = self.begin_write(actor, Target::create(Entity::Measurement), "").await?;
+        let id = on_tx!(&mut w.tx, c => {
             let (n,): (i64,) = sqlx::query_as("SELECT COUNT(*) FROM formulations WHERE id = $1")
                 .bind(formulation_id)
-                .fetch_one(&mut *tx)
+                .fetch_one(&mut **c)
                 .await?;
             if n == 0 {
                 return Err(AppError::NotFound(format!("Formulation {formulation_id}")));
@@ -141,7 +145,7 @@ impl Store {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO measurements (formulation_id, kind, value_c, residual_moisture_pct, method, heating_rate_c_min, \
                  sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at, updated_at) \
-                 VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, 1, $15, $15) RETURNING id",
+                 VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, 'recorded', 1, $14, $14) RETURNING id",
             )
             .bind(formulation_id)
             .bind(d.kind.code())
@@ -156,28 +160,33 @@ impl Store {
             .bind(d.measured_on)
             .bind(d.replicate)
             .bind(&d.notes)
-            .bind(d.review_state.code())
             .bind(at)
-            .fetch_one(&mut *tx)
+            .fetch_one(&mut **c)
             .await?;
-            tx.commit().await?;
-            Ok(id)
-        })
+            id
+        });
+        w.finish(id).await?;
+        Ok(id)
     }
 
+    /// Saves an edit made on `version`; a reviewed result needs a `reason` and goes back to
+    /// "recorded" (its signature stays with the earlier version).
     pub async fn update_measurement(
         &self,
+        actor: &Actor,
         id: i64,
         version: i64,
         d: &MeasurementDraft,
+        reason: &str,
     ) -> Result<(), AppError> {
-        let at = now();
-        let done = on_pool!(self, pool => {
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::Measurement, id, Some(version)), reason)
+            .await?;
+        on_tx!(&mut w.tx, c => {
             sqlx::query(
                 "UPDATE measurements SET kind = $1, value_c = $2, residual_moisture_pct = $3, method = $4, \
                  heating_rate_c_min = $5, sample_mass_mg = $6, pan = $7, instrument = $8, analyst = $9, measured_on = $10, \
-                 replicate = $11, notes = $12, review_state = $13, version = version + 1, updated_at = $14 \
-                 WHERE id = $15 AND version = $16",
+                 replicate = $11, notes = $12 WHERE id = $13",
             )
             .bind(d.kind.code())
             .bind(d.value_c)
@@ -191,17 +200,11 @@ impl Store {
             .bind(d.measured_on)
             .bind(d.replicate)
             .bind(&d.notes)
-            .bind(d.review_state.code())
-            .bind(at)
             .bind(id)
-            .bind(version)
-            .execute(pool)
-            .await?
-            .rows_affected()
+            .execute(&mut **c)
+            .await?;
         });
-        if done == 0 {
-            return Err(stale_or_missing(self, "Measurement", id).await);
-        }
+        w.finish(id).await?;
         Ok(())
     }
 }

@@ -1,6 +1,7 @@
 //! All SQL lives here. One portable SQL text per statement (`$1` placeholders work on both
 //! SQLite and PostgreSQL), run on whichever pool the URL chose.
 
+pub mod audit;
 mod containers;
 mod cycles;
 pub mod demo;
@@ -8,6 +9,10 @@ mod formulations;
 mod library;
 mod materials;
 mod measurements;
+mod sessions;
+mod signatures;
+mod users;
+pub(crate) mod write;
 
 use std::str::FromStr;
 use std::time::Duration;
@@ -17,7 +22,12 @@ use sqlx::sqlite::{SqliteConnectOptions, SqliteJournalMode, SqlitePool, SqlitePo
 
 use crate::error::AppError;
 
+pub use audit::{AuditCheck, AuditEvent, AuditFilter};
 pub use formulations::{trim_number, FormulationFilter, FormulationSort, FormulationSummary, Page};
+pub use sessions::{wait_after, SessionInfo, SessionLimits};
+pub use signatures::{SignRequest, Signature, TeamSettings};
+pub use users::{check_username, ApiToken, NewUser, User};
+pub use write::Snapshot;
 
 /// The database: a SQLite file or a PostgreSQL server, same schema and behaviour.
 #[derive(Clone, Debug)]

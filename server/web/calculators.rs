@@ -2,6 +2,7 @@
 //! of the team's own data without saving anything (only the fitted k can be kept, on
 //! purpose, as an in-house material property).
 
+use crate::auth::Actor;
 use askama::Template;
 use axum::extract::{Query, State};
 use axum::response::Response;
@@ -737,6 +738,7 @@ struct SaveFit {
 /// linking the measurements it came from.
 async fn save_fit(
     State(state): State<AppState>,
+    actor: Actor,
     Form(f): Form<SaveFit>,
 ) -> Result<Response, AppError> {
     let q = CalcQuery {
@@ -758,8 +760,7 @@ async fn save_fit(
     );
     state
         .store
-        .set_material_property(
-            o.b.id,
+        .set_material_property(&actor, o.b.id,
             &PropertyDraft {
                 kind: PropertyKind::TgPrimeBlendK,
                 value: o.fit.k,

@@ -1,5 +1,6 @@
 //! Container (vial) pages.
 
+use crate::auth::Actor;
 use askama::Template;
 use axum::extract::{Path, State};
 use axum::response::Response;
@@ -88,9 +89,10 @@ async fn new_form() -> Response {
 
 async fn create(
     State(state): State<AppState>,
+    actor: Actor,
     Form(form): Form<ContainerForm>,
 ) -> Result<Response, AppError> {
-    let result = async { state.store.create_container(&form.parse()?).await }.await;
+    let result = async { state.store.create_container(&actor, &form.parse()?).await }.await;
     saved_or_form(
         result,
         |_| "/containers".into(),
@@ -113,12 +115,13 @@ async fn edit_form(
 
 async fn update(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<ContainerForm>,
 ) -> Result<Response, AppError> {
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_container(id, version, &draft).await
+        state.store.update_container(&actor, id, version, &draft).await
     }
     .await;
     saved_or_form(

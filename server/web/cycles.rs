@@ -1,6 +1,7 @@
 //! Candidate cycles: create, edit, copy, archive; link formulations; verdicts, charts,
 //! design space and a suggested faster cycle for each link.
 
+use crate::auth::Actor;
 use askama::Template;
 use axum::extract::{Path, Query, State};
 use axum::response::Response;
@@ -194,9 +195,10 @@ async fn new_form() -> Response {
 
 async fn create(
     State(state): State<AppState>,
+    actor: Actor,
     Form(form): Form<CycleForm>,
 ) -> Result<Response, AppError> {
-    let result = async { state.store.create_cycle(&form.parse()?).await }.await;
+    let result = async { state.store.create_cycle(&actor, &form.parse()?).await }.await;
     saved_or_form(
         result,
         |id| format!("/cycles/{id}"),
@@ -228,12 +230,13 @@ async fn edit_form(
 
 async fn update(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<CycleForm>,
 ) -> Result<Response, AppError> {
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_cycle(id, version, &draft).await
+        state.store.update_cycle(&actor, id, version, &draft).await
     }
     .await;
     saved_or_form(
@@ -262,7 +265,8 @@ async fn free_name(state: &AppState, base: &str) -> Result<String, AppError> {
     Ok(candidate)
 }
 
-async fn copy(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn copy(State(state): State<AppState>,
+    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
     let c = state.store.get_cycle(id).await?;
     let draft = CycleDraft {
         name: free_name(&state, &c.name).await?,
@@ -272,12 +276,11 @@ async fn copy(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Resp
         program: c.program.clone(),
         sublimation_ceiling_kg_h_m2: c.sublimation_ceiling_kg_h_m2,
     };
-    let new_id = state.store.create_cycle(&draft).await?;
+    let new_id = state.store.create_cycle(&actor, &draft).await?;
     for l in state.store.links_of_cycle(id).await? {
         state
             .store
-            .create_link(
-                new_id,
+            .create_link(&actor, new_id,
                 &LinkDraft {
                     formulation_id: l.formulation_id,
                     container_id: l.container_id,
@@ -289,18 +292,20 @@ async fn copy(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Resp
     Ok(see_other(&format!("/cycles/{new_id}/edit")))
 }
 
-async fn archive(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn archive(State(state): State<AppState>,
+    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
     state
         .store
-        .set_cycle_status(id, CycleStatus::Archived)
+        .set_cycle_status(&actor, id, CycleStatus::Archived)
         .await?;
     Ok(see_other(&format!("/cycles/{id}")))
 }
 
-async fn restore(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn restore(State(state): State<AppState>,
+    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
     state
         .store
-        .set_cycle_status(id, CycleStatus::Candidate)
+        .set_cycle_status(&actor, id, CycleStatus::Candidate)
         .await?;
     Ok(see_other(&format!("/cycles/{id}")))
 }
@@ -430,6 +435,7 @@ async fn detail(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Re
 
 async fn add_link(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<LinkForm>,
 ) -> Result<Response, AppError> {
@@ -445,7 +451,7 @@ async fn add_link(
         }
     }
     let result = match form.parse() {
-        Ok(d) => state.store.create_link(id, &d).await,
+        Ok(d) => state.store.create_link(&actor, id, &d).await,
         Err(e) => Err(AppError::Fields(e)),
     };
     match result {
@@ -467,9 +473,10 @@ async fn add_link(
 
 async fn remove_link(
     State(state): State<AppState>,
+    actor: Actor,
     Path((id, link)): Path<(i64, i64)>,
 ) -> Result<Response, AppError> {
-    state.store.delete_link(id, link).await?;
+    state.store.delete_link(&actor, id, link).await?;
     Ok(see_other(&format!("/cycles/{id}")))
 }
 
@@ -704,6 +711,7 @@ async fn link_detail(
 /// safety share, linked to the same formulation, container and fill.
 async fn adopt_suggestion(
     State(state): State<AppState>,
+    actor: Actor,
     Path((id, link)): Path<(i64, i64)>,
 ) -> Result<Response, AppError> {
     let a = link_of(&state, id, link).await?;
@@ -723,11 +731,10 @@ async fn adopt_suggestion(
         program,
         sublimation_ceiling_kg_h_m2: a.cycle.sublimation_ceiling_kg_h_m2,
     };
-    let new_id = state.store.create_cycle(&draft).await?;
+    let new_id = state.store.create_cycle(&actor, &draft).await?;
     state
         .store
-        .create_link(
-            new_id,
+        .create_link(&actor, new_id,
             &LinkDraft {
                 formulation_id: a.formulation.id,
                 container_id: a.container.id,

@@ -1,5 +1,6 @@
 //! Formulation pages: list with search and filters, detail, create, edit, archive.
 
+use crate::auth::Actor;
 use askama::Template;
 use axum::extract::{Path, Query, State};
 use axum::response::Response;
@@ -276,11 +277,12 @@ async fn new_form(State(state): State<AppState>) -> Result<Response, AppError> {
 
 async fn create(
     State(state): State<AppState>,
+    actor: Actor,
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let mut form = FormulationForm::from_pairs(&pairs);
     let result = match form.parse() {
-        Ok(draft) => state.store.create_formulation(&draft).await,
+        Ok(draft) => state.store.create_formulation(&actor, &draft).await,
         Err(errors) => Err(AppError::Fields(errors)),
     };
     match result {
@@ -433,13 +435,14 @@ async fn edit_form(
 
 async fn update(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let mut form = FormulationForm::from_pairs(&pairs);
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_formulation(id, version, &draft).await
+        state.store.update_formulation(&actor, id, version, &draft, &form.reason).await
     }
     .await;
     match result {
@@ -462,18 +465,20 @@ async fn update(
     }
 }
 
-async fn archive(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn archive(State(state): State<AppState>,
+    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
     state
         .store
-        .set_formulation_status(id, FormulationStatus::Archived)
+        .set_formulation_status(&actor, id, FormulationStatus::Archived)
         .await?;
     Ok(see_other(&format!("/formulations/{id}")))
 }
 
-async fn restore(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn restore(State(state): State<AppState>,
+    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
     state
         .store
-        .set_formulation_status(id, FormulationStatus::Draft)
+        .set_formulation_status(&actor, id, FormulationStatus::Draft)
         .await?;
     Ok(see_other(&format!("/formulations/{id}")))
 }
@@ -516,13 +521,14 @@ async fn resistance_form(
 
 async fn save_resistance(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<ResistanceForm>,
 ) -> Result<Response, AppError> {
     let f = state.store.get_formulation(id).await?;
     let version = form.version.trim().parse::<i64>().ok();
     let result = match form.parse() {
-        Ok((r, source)) => state.store.set_resistance(id, &r, &source, version).await,
+        Ok((r, source)) => state.store.set_resistance(&actor, id, &r, &source, version).await,
         Err(e) => Err(AppError::Fields(e)),
     };
     match result {
@@ -549,6 +555,7 @@ struct LimitBasisForm {
 /// Chooses which limit the cycle checks use for a crystalline matrix.
 async fn set_limit_basis(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<LimitBasisForm>,
 ) -> Result<Response, AppError> {
@@ -562,7 +569,7 @@ async fn set_limit_basis(
             ))
         }
     };
-    state.store.set_limit_basis(id, crystalline).await?;
+    state.store.set_limit_basis(&actor, id, crystalline).await?;
     Ok(see_other(&format!("/formulations/{id}")))
 }
 

@@ -1,5 +1,6 @@
 //! Materials library pages.
 
+use crate::auth::Actor;
 use askama::Template;
 use axum::extract::{Path, State};
 use axum::response::Response;
@@ -130,10 +131,11 @@ async fn new_form() -> Response {
 
 async fn create(
     State(state): State<AppState>,
+    actor: Actor,
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let form = MaterialForm::from_pairs(&pairs);
-    let result = async { state.store.create_material(&form.parse()?).await }.await;
+    let result = async { state.store.create_material(&actor, &form.parse()?).await }.await;
     saved_or_form(
         result,
         |id| format!("/materials/{id}"),
@@ -165,13 +167,14 @@ async fn edit_form(
 
 async fn update(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(pairs): Form<Vec<(String, String)>>,
 ) -> Result<Response, AppError> {
     let form = MaterialForm::from_pairs(&pairs);
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_material(id, version, &draft).await
+        state.store.update_material(&actor, id, version, &draft).await
     }
     .await;
     saved_or_form(

@@ -1,5 +1,6 @@
 //! Measurement pages: add and edit on a formulation, and the list across formulations.
 
+use crate::auth::Actor;
 use askama::Template;
 use axum::extract::{Path, Query, State};
 use axum::response::Response;
@@ -98,11 +99,12 @@ async fn new_form(
 
 async fn create(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<MeasurementForm>,
 ) -> Result<Response, AppError> {
     let result = match form.parse(today()) {
-        Ok(draft) => state.store.create_measurement(id, &draft).await,
+        Ok(draft) => state.store.create_measurement(&actor, id, &draft).await,
         Err(errors) => Err(AppError::Fields(errors)),
     };
     match result {
@@ -141,13 +143,14 @@ async fn edit_form(
 
 async fn update(
     State(state): State<AppState>,
+    actor: Actor,
     Path(id): Path<i64>,
     Form(form): Form<MeasurementForm>,
 ) -> Result<Response, AppError> {
     let existing = state.store.get_measurement(id).await?;
     let result = async {
         let (draft, version) = draft_and_version(form.parse(today()), &form.version)?;
-        state.store.update_measurement(id, version, &draft).await
+        state.store.update_measurement(&actor, id, version, &draft, &form.reason).await
     }
     .await;
     match result {
