@@ -3,7 +3,6 @@
 use std::io::Read;
 use std::net::SocketAddr;
 use std::process::ExitCode;
-use std::sync::Arc;
 
 use clap::{Parser, Subcommand};
 
@@ -24,7 +23,7 @@ pub struct Cli {
 #[derive(clap::Args, Clone)]
 struct DatabaseArg {
     /// Database URL (sqlite://file.db or postgres://…). Default: sqlite://glasspoint.db here.
-    #[arg(long = "database", env = "DATABASE_URL")]
+    #[arg(long = "database", env = "DATABASE_URL", global = true)]
     database: Option<String>,
 }
 
@@ -40,6 +39,15 @@ enum Command {
         /// Load the demo scenario (records already present are left alone).
         #[arg(long)]
         demo: bool,
+        /// Mark the session cookie Secure: set this when the app is reached over HTTPS.
+        #[arg(long, env = "GLASSPOINT_SECURE_COOKIES")]
+        secure_cookies: bool,
+        /// Minutes after which an unused session ends.
+        #[arg(long, env = "GLASSPOINT_SESSION_IDLE_MIN", default_value_t = crate::config::DEFAULT_SESSION_IDLE_MIN)]
+        session_idle_min: i64,
+        /// Hours after which every session ends.
+        #[arg(long, env = "GLASSPOINT_SESSION_HOURS", default_value_t = crate::config::DEFAULT_SESSION_ABSOLUTE_H)]
+        session_hours: i64,
         /// The team's safety margin below the critical temperature, °C (0 to 20).
         #[arg(long, env = "GLASSPOINT_MARGIN_C", default_value_t = glasspoint_science::limit::DEFAULT_MARGIN_C)]
         margin_c: f64,
@@ -51,6 +59,20 @@ enum Command {
     },
     /// Load the demo scenario (idempotent).
     SeedDemo {
+        #[command(flatten)]
+        db: DatabaseArg,
+    },
+    /// Manage accounts and API tokens.
+    User {
+        #[command(subcommand)]
+        action: crate::cli_users::UserCommand,
+        #[command(flatten)]
+        db: DatabaseArg,
+    },
+    /// Check the audit trail.
+    Audit {
+        #[command(subcommand)]
+        action: AuditCommand,
         #[command(flatten)]
         db: DatabaseArg,
     },
@@ -67,6 +89,13 @@ enum Command {
         #[command(flatten)]
         db: DatabaseArg,
     },
+}
+
+#[derive(Subcommand)]
+enum AuditCommand {
+    /// Report whether the trail was altered, deleted from or reordered outside the app
+    /// (exit status 0 when intact, 1 when not), naming the first bad event.
+    Verify,
 }
 
 pub async fn main() -> ExitCode {
@@ -107,6 +136,9 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             db,
             demo,
             margin_c,
+            secure_cookies,
+            session_idle_min,
+            session_hours,
         } => {
             if !(0.0..=glasspoint_science::limit::MAX_MARGIN_C).contains(&margin_c) {
                 return Err(AppError::input(
@@ -131,10 +163,14 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
                     "glasspoint: demo scenario: {} formulations, {} measurements and {} cycles added",
                     report.formulations, report.measurements, report.cycles
                 );
+                print_demo_users(&report);
             }
             let mut config = Config::for_database(url);
             config.bind = bind;
             config.margin_c = margin_c;
+            config.secure_cookies = secure_cookies;
+            config.session_idle_min = session_idle_min.clamp(1, 7 * 24 * 60);
+            config.session_absolute_h = session_hours.clamp(1, 24 * 30);
             serve(store, config).await?;
             Ok(ExitCode::SUCCESS)
         }
@@ -151,8 +187,23 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
                 "glasspoint: demo scenario loaded: {} materials, {} formulations, {} measurements, {} cycles added",
                 r.materials, r.formulations, r.measurements, r.cycles
             );
+            print_demo_users(&r);
             store.close().await;
             Ok(ExitCode::SUCCESS)
+        }
+        Command::User { action, db } => {
+            let (store, _) = open(db).await?;
+            let code = crate::cli_users::run_user(&store, action).await;
+            store.close().await;
+            code
+        }
+        Command::Audit { action, db } => {
+            let (store, _) = open(db).await?;
+            let code = match action {
+                AuditCommand::Verify => crate::cli_users::run_audit_verify(&store).await,
+            };
+            store.close().await;
+            code
         }
         Command::Calc { topic, input, db } => {
             let text = match &input {
@@ -190,6 +241,22 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
     }
 }
 
+/// The demo accounts' one-time passwords: printed here and stored nowhere but as hashes.
+fn print_demo_users(report: &crate::storage::demo::DemoReport) {
+    if !report.new_users.is_empty() {
+        eprintln!("glasspoint: demo accounts (sign in at /login; the passwords are shown this once):");
+        for (name, role, password) in &report.new_users {
+            eprintln!("    {name:<10} {:<10} password: {password}", role.code());
+        }
+    }
+    if !report.existing_users.is_empty() {
+        eprintln!(
+            "glasspoint: demo accounts {} exist already; their passwords were shown when they were made (reset one with `glasspoint user passwd NAME`)",
+            report.existing_users.join(", ")
+        );
+    }
+}
+
 /// Serves until Ctrl-C, printing the address actually bound (useful with port 0).
 pub async fn serve(store: Store, config: Config) -> Result<(), AppError> {
     let listener = tokio::net::TcpListener::bind(config.bind)
@@ -199,11 +266,11 @@ pub async fn serve(store: Store, config: Config) -> Result<(), AppError> {
         .local_addr()
         .map_err(|e| AppError::Internal(e.to_string()))?;
     eprintln!("glasspoint: listening on http://{addr}");
-    let app = crate::router(AppState {
-        store,
-        config: Arc::new(config),
-    });
-    axum::serve(listener, app)
+    let app = crate::router(AppState::new(store, config));
+    axum::serve(
+        listener,
+        app.into_make_service_with_connect_info::<SocketAddr>(),
+    )
         .with_graceful_shutdown(async {
             let _ = tokio::signal::ctrl_c().await;
         })

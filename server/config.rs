@@ -8,6 +8,9 @@ pub const DEFAULT_BIND: &str = "127.0.0.1:8080";
 /// Largest request body accepted anywhere, in bytes.
 pub const DEFAULT_BODY_LIMIT: usize = 256 * 1024;
 
+pub const DEFAULT_SESSION_IDLE_MIN: i64 = 120;
+pub const DEFAULT_SESSION_ABSOLUTE_H: i64 = 12;
+
 #[derive(Debug, Clone)]
 pub struct Config {
     pub database_url: String,
@@ -16,6 +19,13 @@ pub struct Config {
     pub request_timeout_s: u64,
     /// The team's safety margin below the critical temperature, °C.
     pub margin_c: f64,
+    /// Marks the session cookie `Secure`: set when the app is served over TLS (directly or
+    /// behind a proxy that terminates it).
+    pub secure_cookies: bool,
+    /// A session nobody used for this long ends.
+    pub session_idle_min: i64,
+    /// Every session ends this long after sign-in.
+    pub session_absolute_h: i64,
 }
 
 impl Config {
@@ -27,6 +37,9 @@ impl Config {
             body_limit_bytes: DEFAULT_BODY_LIMIT,
             request_timeout_s: 30,
             margin_c: glasspoint_science::limit::DEFAULT_MARGIN_C,
+            secure_cookies: false,
+            session_idle_min: DEFAULT_SESSION_IDLE_MIN,
+            session_absolute_h: DEFAULT_SESSION_ABSOLUTE_H,
         }
     }
 }
@@ -37,4 +50,13 @@ pub fn database_url_or_default(given: Option<String>) -> String {
     given
         .filter(|s| !s.trim().is_empty())
         .unwrap_or_else(|| format!("sqlite://{DEFAULT_SQLITE_FILE}"))
+}
+
+impl Config {
+    pub fn session_limits(&self) -> crate::storage::SessionLimits {
+        crate::storage::SessionLimits {
+            idle: time::Duration::minutes(self.session_idle_min),
+            absolute: time::Duration::hours(self.session_absolute_h),
+        }
+    }
 }

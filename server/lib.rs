@@ -9,6 +9,7 @@ pub mod api;
 pub mod auth;
 pub mod charts;
 pub mod cli;
+mod cli_users;
 pub mod config;
 pub mod derive;
 pub mod domain;
@@ -29,6 +30,18 @@ pub use storage::Store;
 pub struct AppState {
     pub store: Store,
     pub config: Arc<Config>,
+    /// Whether an account exists yet (cached once true).
+    pub first_run: web::auth::FirstRun,
+}
+
+impl AppState {
+    pub fn new(store: Store, config: Config) -> AppState {
+        AppState {
+            store,
+            config: Arc::new(config),
+            first_run: Default::default(),
+        }
+    }
 }
 
 /// The whole application: pages, API, static assets and middleware.
@@ -37,6 +50,11 @@ pub fn router(state: AppState) -> Router {
         Router::new()
             .merge(web::router())
             .nest("/api/v1", api::router())
+            // Every matched route passes the access table; unmatched ones answer 404.
+            .route_layer(axum::middleware::from_fn_with_state(
+                state.clone(),
+                web::auth::authorize,
+            ))
             .with_state(state.clone()),
         &state.config,
     )

@@ -186,9 +186,6 @@ pub struct MeasurementInput {
     pub replicate: Option<i64>,
     #[serde(default)]
     pub notes: String,
-    /// Ignored on input: a result is recorded, and only a reviewer's signature marks it
-    /// reviewed or rejected.
-    pub review_state: Option<String>,
     pub version: Option<i64>,
     /// Why the record is changed: required when it is reviewed.
     #[serde(default)]

@@ -4,7 +4,7 @@
 use serde_json::Value;
 use sqlx::FromRow;
 
-use super::write::{commit, on_tx, Tx};
+use super::write::{on_tx, Tx};
 use super::{on_pool, Store};
 use crate::auth::Actor;
 use crate::domain::{Action, Entity};
@@ -200,14 +200,6 @@ const WHERE_AUDIT: &str = "WHERE ($1 = '' OR entity = $1) AND ($2 = 0 OR entity_
      AND ($5 = '' OR at >= $5) AND ($6 = '' OR at < $6)";
 
 impl Store {
-    /// Records an event that is not a record's change (sign-in, sign-out, a refused
-    /// sign-in) in a transaction of its own.
-    pub(crate) async fn log_event(&self, e: NewEvent<'_>) -> Result<(), AppError> {
-        let mut tx = self.begin_locked().await?;
-        append_event(&mut tx, e).await?;
-        commit(tx).await
-    }
-
     /// Events matching `filter`, oldest first, one page at a time.
     pub async fn audit_events(
         &self,

@@ -291,8 +291,8 @@ impl Store {
                 )
                 .await?;
             }
-            // One corrected result per reviewed formulation's first measurement of the first
-            // formulation: a new version with its reason; the signature stays with version 1.
+            // The first formulation's first result was corrected after review: a new version
+            // with its reason; the signature stays with the version it signed.
             if index == 0 {
                 if let Some((mid, mut draft)) = first_measurement {
                     draft.notes = format!(
@@ -301,10 +301,11 @@ impl Store {
                     )
                     .trim()
                     .to_string();
+                    let version = self.get_measurement(mid).await?.version;
                     self.update_measurement(
                         &scientist,
                         mid,
-                        2,
+                        version,
                         &draft,
                         "Baseline re-integrated after the calibration check",
                     )

@@ -1,6 +1,7 @@
 //! Server-rendered pages. Handlers are thin: extract, parse into domain types, call the
 //! store or the science, render.
 
+pub mod auth;
 mod calculators;
 mod containers;
 mod cycles;
@@ -10,6 +11,7 @@ mod formulations;
 pub use formulations::ListQuery as FormulationListQuery;
 mod materials;
 mod measurements;
+mod sign_in;
 
 use std::time::Duration;
 
@@ -40,6 +42,7 @@ pub fn router() -> Router<AppState> {
         .merge(containers::router())
         .merge(cycles::router())
         .merge(calculators::router())
+        .merge(sign_in::router())
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 
@@ -123,6 +126,15 @@ pub fn error_page(status: StatusCode, message: &str) -> Response {
         .render()
         .unwrap_or_else(|_| "Something went wrong.".into());
     (status, Html(body)).into_response()
+}
+
+/// Renders a page template with a given status.
+pub fn render_status<T: Template>(status: StatusCode, page: T) -> Response {
+    let mut response = render(page);
+    if response.status() == StatusCode::OK {
+        *response.status_mut() = status;
+    }
+    response
 }
 
 /// Renders a page template, turning a template failure into a logged 500.
