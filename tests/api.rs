@@ -101,7 +101,7 @@ on_both_backends! {
             "measured_on": "2026-10-02", "version": m["version"], "review_state": "reviewed"
         })).await;
         assert_eq!(updated.status, StatusCode::OK, "{}", updated.body);
-        assert_eq!(updated.json()["review_state"], "reviewed");
+        assert_eq!(updated.json()["review_state"], "recorded", "only a reviewer's signature marks a result reviewed");
 
         let mat = app.post_json("/api/v1/materials", &json!({
             "name": "Test polyol", "role": "bulking_agent", "freezing_behaviour": "crystallizes",

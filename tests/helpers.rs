@@ -1,11 +1,14 @@
 //! The test app: the real router on a fresh database.
 
 use std::sync::atomic::{AtomicU32, Ordering};
-use std::sync::Arc;
+use std::sync::OnceLock;
 
 use axum::body::Body;
 use axum::http::{header, Request, StatusCode};
 use axum::Router;
+use glasspoint::auth::Actor;
+use glasspoint::domain::Role;
+use glasspoint::storage::NewUser;
 use glasspoint::{AppState, Config, Store};
 use http_body_util::BodyExt;
 use tower::ServiceExt;
@@ -13,6 +16,8 @@ use tower::ServiceExt;
 pub struct TestApp {
     pub router: Router,
     pub store: Store,
+    /// The administrator every plain request is sent as.
+    pub admin: TestSession,
     /// Keeps the SQLite file alive for the test's duration.
     _dir: Option<tempfile::TempDir>,
     /// PostgreSQL database to drop afterwards: (admin URL, name).
@@ -22,6 +27,7 @@ pub struct TestApp {
 pub struct Reply {
     pub status: StatusCode,
     pub location: Option<String>,
+    pub headers: axum::http::HeaderMap,
     pub body: String,
 }
 
@@ -33,13 +39,68 @@ impl Reply {
 
 static COUNTER: AtomicU32 = AtomicU32::new(0);
 
+/// A signed-in person: the session cookie and the CSRF token its forms carry.
+#[derive(Debug, Clone)]
+pub struct TestSession {
+    pub user_id: i64,
+    pub username: String,
+    pub cookie: String,
+    pub csrf: String,
+}
+
+/// The password of every account the tests make.
+pub const TEST_PASSWORD: &str = "a long test password";
+
+fn test_password_hash() -> &'static str {
+    static HASH: OnceLock<String> = OnceLock::new();
+    HASH.get_or_init(|| glasspoint::auth::secrets::hash_password(TEST_PASSWORD).unwrap())
+}
+
+/// Creates (or finds) an account with `role` and signs it in.
+pub async fn sign_in(store: &Store, username: &str, role: Role) -> TestSession {
+    let user = match store.user_by_name(username).await.unwrap() {
+        Some((u, _)) => u,
+        None => {
+            let id = store
+                .create_user(
+                    &Actor::system(),
+                    &NewUser {
+                        username,
+                        full_name: &format!("{username} (test)"),
+                        role,
+                        password_hash: test_password_hash(),
+                    },
+                )
+                .await
+                .expect("create test user");
+            store.get_user(id).await.unwrap()
+        }
+    };
+    let cookie = store
+        .create_session(&user.actor(true), "test")
+        .await
+        .expect("session");
+    let info = store
+        .session(&cookie, Config::for_database("test").session_limits())
+        .await
+        .unwrap()
+        .expect("live session");
+    TestSession {
+        user_id: user.id,
+        username: user.username,
+        cookie,
+        csrf: info.csrf_token,
+    }
+}
+
 impl TestApp {
-    fn build(
+    async fn build(
         store: Store,
         dir: Option<tempfile::TempDir>,
         pg: Option<(String, String)>,
     ) -> TestApp {
-        Self::build_with(store, dir, pg, Config::for_database("test"))
+        let admin = sign_in(&store, "admin", Role::Admin).await;
+        Self::build_with(store, dir, pg, Config::for_database("test"), admin)
     }
 
     fn build_with(
@@ -47,17 +108,26 @@ impl TestApp {
         dir: Option<tempfile::TempDir>,
         pg: Option<(String, String)>,
         config: Config,
+        admin: TestSession,
     ) -> TestApp {
-        let state = AppState {
-            store: store.clone(),
-            config: Arc::new(config),
-        };
+        let state = AppState::new(store.clone(), config);
         TestApp {
             router: glasspoint::router(state),
             store,
+            admin,
             _dir: dir,
             pg,
         }
+    }
+
+    /// A client that sends requests as `session` (or as nobody).
+    pub fn client<'a>(&'a self, session: Option<&'a TestSession>) -> Client<'a> {
+        Client { app: self, session }
+    }
+
+    /// Signs in a (new) account with `role`.
+    pub async fn user(&self, username: &str, role: Role) -> TestSession {
+        sign_in(&self.store, username, role).await
     }
 
     /// A fresh, migrated SQLite file.
@@ -66,7 +136,7 @@ impl TestApp {
         let url = format!("sqlite://{}", dir.path().join("test.db").display());
         let store = Store::connect(&url).await.expect("connect sqlite");
         store.migrate().await.expect("migrate sqlite");
-        Self::build(store, Some(dir), None)
+        Self::build(store, Some(dir), None).await
     }
 
     /// The same app with a team safety margin other than the default.
@@ -74,9 +144,13 @@ impl TestApp {
         let mut config = Config::for_database("test");
         config.margin_c = margin_c;
         let TestApp {
-            store, _dir, pg, ..
+            store,
+            _dir,
+            pg,
+            admin,
+            ..
         } = self;
-        Self::build_with(store, _dir, pg, config)
+        Self::build_with(store, _dir, pg, config, admin)
     }
 
     /// A fresh, migrated PostgreSQL database, when `TEST_DATABASE_URL` names a server.
@@ -108,23 +182,88 @@ impl TestApp {
         let url = replace_database(&admin, &name);
         let store = Store::connect(&url).await.expect("connect postgres");
         store.migrate().await.expect("migrate postgres");
-        Some(Self::build(store, None, Some((admin, name))))
+        Some(Self::build(store, None, Some((admin, name))).await)
     }
 
     pub async fn load_demo(&self) {
         self.store.seed_demo().await.expect("seed demo");
     }
 
+    /// Sends `req` as the administrator.
     pub async fn request(&self, req: Request<Body>) -> Reply {
+        self.client(Some(&self.admin)).request(req).await
+    }
+
+    /// Sends `req` exactly as given: no cookie, no token.
+    pub async fn raw(&self, req: Request<Body>) -> Reply {
         let response = self
             .router
             .clone()
             .oneshot(req)
             .await
             .expect("router answers");
+        Reply::read(response).await
+    }
+
+    pub async fn get(&self, path: &str) -> Reply {
+        self.client(Some(&self.admin)).get(path).await
+    }
+
+    pub async fn post_form(&self, path: &str, fields: &[(&str, &str)]) -> Reply {
+        self.client(Some(&self.admin)).post_form(path, fields).await
+    }
+
+    pub async fn send_json(&self, method: &str, path: &str, body: &serde_json::Value) -> Reply {
+        self.client(Some(&self.admin))
+            .send_json(method, path, body)
+            .await
+    }
+
+    pub async fn post_json(&self, path: &str, body: &serde_json::Value) -> Reply {
+        self.send_json("POST", path, body).await
+    }
+
+    pub async fn put_json(&self, path: &str, body: &serde_json::Value) -> Reply {
+        self.send_json("PUT", path, body).await
+    }
+
+    /// The id of the shipped material `name`.
+    pub async fn material_id(&self, name: &str) -> i64 {
+        self.store
+            .list_materials()
+            .await
+            .unwrap()
+            .into_iter()
+            .find(|m| m.name == name)
+            .unwrap_or_else(|| panic!("material {name} is in the library"))
+            .id
+    }
+
+    pub async fn cleanup(self) {
+        let TestApp { store, pg, .. } = self;
+        store.close().await;
+        if let Some((admin, name)) = pg {
+            if let Ok(pool) = sqlx::PgPool::connect(&admin).await {
+                let _ = sqlx::query(&format!("DROP DATABASE IF EXISTS {name}"))
+                    .execute(&pool)
+                    .await;
+                pool.close().await;
+            }
+        }
+    }
+}
+
+/// Requests sent as one signed-in person (or anonymously).
+pub struct Client<'a> {
+    pub app: &'a TestApp,
+    pub session: Option<&'a TestSession>,
+}
+
+impl Reply {
+    pub async fn read(response: axum::response::Response) -> Reply {
         let status = response.status();
-        let location = response
-            .headers()
+        let headers = response.headers().clone();
+        let location = headers
             .get(header::LOCATION)
             .and_then(|v| v.to_str().ok())
             .map(str::to_string);
@@ -137,8 +276,24 @@ impl TestApp {
         Reply {
             status,
             location,
+            headers,
             body: String::from_utf8_lossy(&bytes).into_owned(),
         }
+    }
+}
+
+impl Client<'_> {
+    /// Sends `req` with the session's cookie and CSRF header.
+    pub async fn request(&self, mut req: Request<Body>) -> Reply {
+        if let Some(s) = self.session {
+            let h = req.headers_mut();
+            h.insert(
+                header::COOKIE,
+                format!("gp_session={}", s.cookie).parse().unwrap(),
+            );
+            h.insert("x-csrf-token", s.csrf.parse().unwrap());
+        }
+        self.app.raw(req).await
     }
 
     pub async fn get(&self, path: &str) -> Reply {
@@ -175,31 +330,6 @@ impl TestApp {
 
     pub async fn put_json(&self, path: &str, body: &serde_json::Value) -> Reply {
         self.send_json("PUT", path, body).await
-    }
-
-    /// The id of the shipped material `name`.
-    pub async fn material_id(&self, name: &str) -> i64 {
-        self.store
-            .list_materials()
-            .await
-            .unwrap()
-            .into_iter()
-            .find(|m| m.name == name)
-            .unwrap_or_else(|| panic!("material {name} is in the library"))
-            .id
-    }
-
-    pub async fn cleanup(self) {
-        let TestApp { store, pg, .. } = self;
-        store.close().await;
-        if let Some((admin, name)) = pg {
-            if let Ok(pool) = sqlx::PgPool::connect(&admin).await {
-                let _ = sqlx::query(&format!("DROP DATABASE IF EXISTS {name}"))
-                    .execute(&pool)
-                    .await;
-                pool.close().await;
-            }
-        }
     }
 }
 

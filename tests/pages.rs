@@ -154,7 +154,8 @@ on_both_backends! {
         assert_eq!(ok.status, StatusCode::SEE_OTHER);
         let stale = app.post_form(&path, &[("version", "1"), ("code", "V-1"), ("name", "third"), ("c0_material", &sucrose), ("c0_concentration", "50")]).await;
         assert_eq!(stale.status, StatusCode::UNPROCESSABLE_ENTITY);
-        assert!(stale.body.contains("changed by someone else"));
+        assert!(stale.body.contains("was changed by admin"), "the message says who changed it");
+        assert!(stale.body.contains("changed: name"), "and what changed");
         assert!(stale.body.contains("third"), "the user's edit is still in the form");
         assert!(app.get(&path).await.body.contains("second"), "the other edit stands");
     }

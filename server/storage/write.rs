@@ -87,7 +87,7 @@ impl Store {
         let reason = reason.trim().to_string();
         let locked_as = match (&before, target.id) {
             (Some(before), Some(id)) if target.action.changes_content() => {
-                locking_signature(&mut tx, target.entity, id, before.version).await?
+                locking_signature(&mut tx, target.entity, id, &before.signed_hash()).await?
             }
             _ => None,
         };
@@ -167,23 +167,30 @@ impl Write {
         let at = now();
         let table = self.entity.table();
         if let (Some(before), Action::Update) = (&self.before, self.action) {
-            let changed = snapshot(&mut self.tx, self.entity, id)
-                .await?
-                .is_some_and(|now| !before.same_content(&now));
-            if !changed {
+            let Some(changed) = snapshot(&mut self.tx, self.entity, id).await? else {
+                return Err(AppError::Internal("the record vanished in its own write".into()));
+            };
+            if before.same_content(&changed) {
                 return Ok(before.version);
             }
-            if let (Some(meaning), true) = (&self.locked_as, self.reason.is_empty()) {
+            // What a reviewer signed is unchanged (e.g. only the dry-layer resistance was
+            // recorded): the signature still holds.
+            let signed_unchanged = before.signed_hash() == changed.signed_hash();
+            if let (false, Some(meaning), true) =
+                (signed_unchanged, &self.locked_as, self.reason.is_empty())
+            {
                 return Err(AppError::input(
                     "reason",
                     format!("this record is {meaning}: a change makes a new version and needs a reason"),
                 ));
             }
-            // A signature applies to the version signed: the changed record needs a new one.
-            if let Some(sql) = self.entity.unsign_sql() {
-                on_tx!(&mut self.tx, c => {
-                    sqlx::query(sql).bind(id).execute(&mut **c).await?;
-                });
+            // A signature applies to the content signed: changed content needs a new one.
+            if !signed_unchanged {
+                if let Some(sql) = self.entity.unsign_sql() {
+                    on_tx!(&mut self.tx, c => {
+                        sqlx::query(sql).bind(id).execute(&mut **c).await?;
+                    });
+                }
             }
         }
         if self.action.bumps_version() {
@@ -236,6 +243,11 @@ impl Snapshot {
         Value::Object(self.content.clone()).to_string()
     }
 
+    /// The hash a signature of this content carries.
+    pub fn signed_hash(&self) -> String {
+        signed_content_hash(&self.content)
+    }
+
     /// Equal apart from the version number.
     pub fn same_content(&self, other: &Snapshot) -> bool {
         without(&self.content, &["version"]) == without(&other.content, &["version"])
@@ -249,11 +261,20 @@ fn without(map: &Map<String, Value>, keys: &[&str]) -> Map<String, Value> {
         .collect()
 }
 
-/// The content a signature binds to: the snapshot without its version number and the
-/// review bookkeeping that signing itself sets.
+/// Parts of a record that are not what a reviewer signs: the version number, the review
+/// state that signing itself sets, and process data recorded beside a formulation.
+const UNSIGNED_PARTS: &[&str] = &[
+    "version",
+    "review_state",
+    "status",
+    "dry_layer_resistance",
+    "limit_basis",
+];
+
+/// The content a signature binds to, as SHA-256 hex.
 pub fn signed_content_hash(content: &Map<String, Value>) -> String {
     use sha2::{Digest, Sha256};
-    let bound = without(content, &["version", "review_state", "status"]);
+    let bound = without(content, UNSIGNED_PARTS);
     hex::encode(Sha256::digest(Value::Object(bound).to_string().as_bytes()))
 }
 
@@ -357,16 +378,16 @@ impl AnyRow for sqlx::postgres::PgRow {
     }
 }
 
-/// The newest reviewed or approved signature of the record's current version, if any.
-async fn locking_signature(tx: &mut Tx, entity: Entity, id: i64, version: i64) -> Result<Option<String>, AppError> {
+/// The newest reviewed or approved signature of the record's current content, if any.
+async fn locking_signature(tx: &mut Tx, entity: Entity, id: i64, content_hash: &str) -> Result<Option<String>, AppError> {
     let row: Option<(String,)> = on_tx!(tx, c => {
         sqlx::query_as(
-            "SELECT meaning FROM signatures WHERE entity = $1 AND entity_id = $2 AND version = $3 \
+            "SELECT meaning FROM signatures WHERE entity = $1 AND entity_id = $2 AND content_hash = $3 \
              AND meaning IN ('reviewed', 'approved') ORDER BY id DESC LIMIT 1",
         )
         .bind(entity.code())
         .bind(id)
-        .bind(version)
+        .bind(content_hash)
         .fetch_optional(&mut **c)
         .await?
     });
