@@ -1,5 +1,6 @@
 //! The JSON API under `/api/v1/`, described by `/api/v1/openapi.json`.
 
+mod audit;
 mod calc;
 mod cycles;
 mod input;
@@ -21,6 +22,7 @@ pub fn router() -> Router<AppState> {
         .merge(records::router())
         .merge(cycles::router())
         .merge(calc::router())
+        .merge(audit::router())
         .fallback(|| async { ApiError(crate::AppError::NotFound("This API route".into())) })
 }
 
@@ -53,6 +55,7 @@ pub fn router() -> Router<AppState> {
         cycles::update_cycle,
         cycles::create_link,
         calc::calc,
+        audit::list_audit,
     ),
     components(schemas(
         input::FormulationInput,
@@ -62,6 +65,7 @@ pub fn router() -> Router<AppState> {
         input::MeasurementInput,
         input::ContainerInput,
         ErrorBody,
+        crate::storage::AuditEvent,
         cycles::CycleInput,
         cycles::LinkInput,
         cycles::LinkVerdict,

@@ -83,6 +83,18 @@ pub struct ApiToken {
     pub revoked_at: Option<OffsetDateTime>,
 }
 
+impl ApiToken {
+    pub fn issued_utc(&self) -> String {
+        super::audit::format_time(self.created_at)
+    }
+
+    pub fn last_used_utc(&self) -> String {
+        self.last_used_at
+            .map(super::audit::format_time)
+            .unwrap_or_else(|| "never".into())
+    }
+}
+
 const SELECT_USER: &str =
     "SELECT id, username, full_name, role, disabled, version, created_at, password_hash FROM users";
 

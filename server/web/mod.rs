@@ -1,6 +1,7 @@
 //! Server-rendered pages. Handlers are thin: extract, parse into domain types, call the
 //! store or the science, render.
 
+mod admin;
 pub mod auth;
 mod calculators;
 mod containers;
@@ -11,6 +12,7 @@ mod formulations;
 pub use formulations::ListQuery as FormulationListQuery;
 mod materials;
 mod measurements;
+pub mod records;
 mod sign_in;
 
 use std::time::Duration;
@@ -43,6 +45,8 @@ pub fn router() -> Router<AppState> {
         .merge(cycles::router())
         .merge(calculators::router())
         .merge(sign_in::router())
+        .merge(records::router())
+        .merge(admin::router())
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 
