@@ -22,10 +22,20 @@ pub struct TestApp {
 pub struct Reply {
     pub status: StatusCode,
     pub location: Option<String>,
+    pub headers: axum::http::HeaderMap,
     pub body: String,
 }
 
 impl Reply {
+    /// The content type of the reply, without parameters ("" when absent).
+    pub fn content_type(&self) -> &str {
+        self.headers
+            .get(header::CONTENT_TYPE)
+            .and_then(|v| v.to_str().ok())
+            .map(|v| v.split(';').next().unwrap_or("").trim())
+            .unwrap_or("")
+    }
+
     pub fn json(&self) -> serde_json::Value {
         serde_json::from_str(&self.body).unwrap_or_else(|e| panic!("not JSON ({e}): {}", self.body))
     }
@@ -128,6 +138,7 @@ impl TestApp {
             .get(header::LOCATION)
             .and_then(|v| v.to_str().ok())
             .map(str::to_string);
+        let headers = response.headers().clone();
         let bytes = response
             .into_body()
             .collect()
@@ -137,6 +148,7 @@ impl TestApp {
         Reply {
             status,
             location,
+            headers,
             body: String::from_utf8_lossy(&bytes).into_owned(),
         }
     }

@@ -36,30 +36,28 @@ pub struct CycleInput {
 }
 
 impl CycleInput {
+    /// The same checks as the cycle form: shared limits on name and notes, the ceiling,
+    /// then the program itself.
     fn draft(&self) -> Result<CycleDraft, AppError> {
-        let name = self.name.trim();
-        if name.is_empty() {
-            return Err(AppError::input("name", "is required"));
-        }
-        if name.chars().count() > 120 {
-            return Err(AppError::input("name", "must be at most 120 characters"));
-        }
-        validate_cycle(&self.program)
-            .map_err(|e| AppError::input(format!("program.{}", e.field), e.message))?;
-        if let Some(c) = self.sublimation_ceiling_kg_h_m2 {
-            if !c.is_finite() || c <= 0.0 || c > 100.0 {
-                return Err(AppError::input(
-                    "sublimation_ceiling_kg_h_m2",
-                    "must be above 0 and at most 100 kg/(h·m²)",
-                ));
+        let mut e = FieldErrors::default();
+        let (name, notes) = check_cycle_fields(
+            &mut e,
+            &self.name,
+            &self.notes,
+            self.sublimation_ceiling_kg_h_m2,
+        );
+        if e.is_empty() {
+            if let Err(err) = validate_cycle(&self.program) {
+                e.add(format!("program.{}", err.field), err.message);
             }
         }
-        Ok(CycleDraft {
-            name: name.to_string(),
-            notes: self.notes.trim().to_string(),
+        let draft = e.into_result(CycleDraft {
+            name,
+            notes,
             program: self.program.clone(),
             sublimation_ceiling_kg_h_m2: self.sublimation_ceiling_kg_h_m2,
-        })
+        })?;
+        Ok(draft)
     }
 }
 

@@ -8,5 +8,5 @@ pub mod records;
 
 pub use cycles::*;
 pub use enums::*;
-pub use fields::{FieldError, FieldErrors};
+pub use fields::{limits, number_text, FieldError, FieldErrors};
 pub use records::*;

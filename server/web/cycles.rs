@@ -163,6 +163,7 @@ struct FormPage {
     form: CycleForm,
     errors: FieldErrors,
     units: &'static [&'static str],
+    hold_units: &'static [&'static str],
 }
 
 fn form_page(
@@ -179,6 +180,7 @@ fn form_page(
         form,
         errors,
         units: PRESSURE_UNITS,
+        hold_units: HOLD_UNITS,
     })
 }
 

@@ -167,6 +167,7 @@ struct FormPage {
     units: Vec<&'static str>,
     materials: Vec<(String, String)>,
     containers: Vec<(String, String)>,
+    max_components: usize,
 }
 
 async fn form_page(
@@ -199,7 +200,8 @@ async fn form_page(
         .enumerate()
         .map(|(i, r)| row_view(r, i, &errors))
         .collect();
-    let wanted = (rows.len() + 3).min(MAX_COMPONENTS);
+    // Every stored or typed row, plus blank rows to add more up to the limit.
+    let wanted = (rows.len() + 3).min(MAX_COMPONENTS).max(rows.len());
     while rows.len() < wanted {
         rows.push(row_view(&ComponentRow::default(), usize::MAX, &errors));
     }
@@ -219,6 +221,7 @@ async fn form_page(
         units: ConcentrationUnit::ALL.iter().map(|u| u.code()).collect(),
         materials,
         containers,
+        max_components: MAX_COMPONENTS,
     }))
 }
 
@@ -496,13 +499,7 @@ async fn resistance_form(
     let f = state.store.get_formulation(id).await?;
     let current = crate::derive::resistance_of(&state.store, &f).await?;
     let form = if current.measured {
-        ResistanceForm {
-            r0_cm2_torr_h_g: current.resistance.r0_cm2_torr_h_g.to_string(),
-            a1_cm_torr_h_g: current.resistance.a1_cm_torr_h_g.to_string(),
-            a2_per_cm: current.resistance.a2_per_cm.to_string(),
-            source: current.source.clone(),
-            version: current.version.to_string(),
-        }
+        ResistanceForm::from_resistance(&current)
     } else {
         ResistanceForm::default()
     };

@@ -51,6 +51,7 @@ struct PropertyView {
     convention: String,
     citation: String,
     source_kind: String,
+    measurements: String,
     value_error: String,
     citation_error: String,
 }
@@ -88,11 +89,13 @@ fn form_page(
                 convention: p.convention,
                 citation: p.citation,
                 source_kind: p.source_kind,
+                measurements: p.measurements,
                 value_error: errors.msg(&format!("{code}_value")).to_string(),
                 citation_error: [
                     errors.msg(&format!("{code}_citation")),
                     errors.msg(&format!("{code}_convention")),
                     errors.msg(&format!("{code}_source")),
+                    errors.msg(&format!("{code}_measurements")),
                 ]
                 .iter()
                 .filter(|m| !m.is_empty())
