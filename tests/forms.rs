@@ -269,3 +269,55 @@ on_both_backends! {
         assert_eq!(r.json()["field"], "name");
     }
 }
+
+/// The field error printed right after the `notes` text area, if any.
+fn error_after_notes(html: &str) -> Option<String> {
+    let at = html.find("name=\"notes\"")?;
+    let close = html[at..].find("</textarea>")? + at;
+    let rest = &html[close..];
+    let label_end = rest.find("</label>")?;
+    let after = rest[label_end..]
+        .trim_start_matches("</label>")
+        .trim_start();
+    let p = after.strip_prefix("<p class=\"field-error\">")?;
+    Some(p[..p.find("</p>")?].to_string())
+}
+
+on_both_backends! {
+    async fn over_long_notes_are_refused_alike_by_the_api_and_every_form(app) {
+        let limit = glasspoint::domain::limits::NOTES_CHARS;
+        let long = "é".repeat(limit + 1);
+        let f = app.post_json("/api/v1/formulations", &json!({"code": "NOTES-1", "name": "n"})).await.json();
+        let fid = f["id"].to_string();
+        let sucrose = app.material_id("Sucrose").await.to_string();
+        let program = awkward_program(60.0);
+        let cases: Vec<(&str, Value, String, Vec<(&str, &str)>, &str)> = vec![
+            ("/api/v1/formulations", json!({"code": "NOTES-2", "name": "typed name", "notes": long}),
+             "/formulations".into(), vec![("code", "NOTES-2"), ("name", "typed name"), ("c0_material", &sucrose), ("c0_concentration", "50")], "typed name"),
+            ("/api/v1/measurements", json!({"formulation_id": f["id"], "kind": "tg_prime", "value_c": -32, "method": "dsc", "analyst": "typed analyst", "measured_on": "2024-01-02", "notes": long}),
+             format!("/formulations/{fid}/measurements"), vec![("kind", "tg_prime"), ("value_c", "-32"), ("method", "dsc"), ("analyst", "typed analyst"), ("measured_on", "2024-01-02")], "typed analyst"),
+            ("/api/v1/materials", json!({"name": "typed material", "role": "other", "freezing_behaviour": "amorphous", "notes": long}),
+             "/materials".into(), vec![("name", "typed material"), ("role", "other"), ("freezing_behaviour", "amorphous")], "typed material"),
+            ("/api/v1/containers", json!({"name": "typed vial", "kind": "tubing", "nominal_ml": 6, "inner_area_cm2": 3.8, "outer_area_cm2": 4.1, "kc_cal_s_cm2_k": 0.0003, "kp_cal_s_cm2_k_torr": 0.02, "kd_per_torr": 0.5, "kv_source": "x", "notes": long}),
+             "/containers".into(), vec![("name", "typed vial"), ("kind", "tubing"), ("nominal_ml", "6"), ("inner_area_cm2", "3.8"), ("outer_area_cm2", "4.1"), ("kc_cal_s_cm2_k", "0.0003"), ("kp_cal_s_cm2_k_torr", "0.02"), ("kd_per_torr", "0.5"), ("kv_source", "x")], "typed vial"),
+            ("/api/v1/cycles", json!({"name": "typed cycle", "program": program, "notes": long}),
+             "/cycles".into(), vec![("name", "typed cycle"), ("freezing_ramp_c_per_min", "1"), ("freezing_hold_temp_c", "-45"), ("freezing_hold_h", "2"), ("primary_ramp_c_per_min", "0.5"), ("primary_shelf_temp_c", "-25"), ("primary_chamber_pressure", "100"), ("primary_hold_h", "40"), ("secondary_ramp_c_per_min", "0.1"), ("secondary_shelf_temp_c", "40"), ("secondary_pressure", "100"), ("secondary_hold_h", "6")], "typed cycle"),
+        ];
+        for (api, body, page, mut fields, typed) in cases {
+            let r = app.post_json(api, &body).await;
+            assert_eq!(r.status, StatusCode::UNPROCESSABLE_ENTITY, "{api}: {}", r.body);
+            let e = r.json();
+            assert_eq!(e["field"], "notes", "{api}");
+            let message = e["error"].as_str().unwrap().to_string();
+            assert!(message.contains(&format!("at most {limit} characters")), "{api}: {message}");
+
+            fields.push(("notes", &long));
+            let r = app.post_form(&page, &fields).await;
+            assert_eq!(r.status, StatusCode::UNPROCESSABLE_ENTITY, "{page}");
+            assert_eq!(error_after_notes(&r.body).as_deref(), Some(message.as_str()), "{page}: the same message beside the notes");
+            let form = post_form_in(&r.body);
+            assert!(form.fields.iter().any(|(_, v)| v == typed), "{page} keeps {typed}");
+            assert_eq!(form.get("notes").map(|n| n.chars().count()), Some(limit + 1), "{page} keeps the notes");
+        }
+    }
+}
