@@ -43,6 +43,14 @@ enum Command {
         /// The team's safety margin below the critical temperature, °C (0 to 20).
         #[arg(long, env = "GLASSPOINT_MARGIN_C", default_value_t = glasspoint_science::limit::DEFAULT_MARGIN_C)]
         margin_c: f64,
+        /// Another host name the server answers to, besides localhost, 127.0.0.1, [::1]
+        /// and the bind address (repeatable; the variable takes a comma-separated list).
+        #[arg(
+            long = "allowed-host",
+            env = "GLASSPOINT_ALLOWED_HOSTS",
+            value_delimiter = ','
+        )]
+        allowed_hosts: Vec<String>,
     },
     /// Apply pending database migrations (and install the shipped library on first run).
     Migrate {
@@ -107,6 +115,7 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             db,
             demo,
             margin_c,
+            allowed_hosts,
         } => {
             if !(0.0..=glasspoint_science::limit::MAX_MARGIN_C).contains(&margin_c) {
                 return Err(AppError::input(
@@ -135,6 +144,10 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             let mut config = Config::for_database(url);
             config.bind = bind;
             config.margin_c = margin_c;
+            config.allowed_hosts = crate::config::allowed_hosts_for(bind, &allowed_hosts);
+            if let Some(warning) = config.bind_warning() {
+                eprintln!("{warning}");
+            }
             serve(store, config).await?;
             Ok(ExitCode::SUCCESS)
         }

@@ -17,16 +17,6 @@ impl PostedForm {
             .map(|(_, v)| v.as_str())
     }
 
-    /// Replaces the value of `name` (which must be present).
-    pub fn set(&mut self, name: &str, value: &str) {
-        let slot = self
-            .fields
-            .iter_mut()
-            .find(|(k, _)| k == name)
-            .unwrap_or_else(|| panic!("the form has no field {name}"));
-        slot.1 = value.to_string();
-    }
-
     pub fn pairs(&self) -> Vec<(&str, &str)> {
         self.fields
             .iter()

@@ -270,6 +270,9 @@ on_both_backends! {
     }
 }
 
+/// (API path, JSON body, form path, other form fields, one typed value the page keeps)
+type NotesCase<'a> = (&'a str, Value, String, Vec<(&'a str, &'a str)>, &'a str);
+
 /// The field error printed right after the `notes` text area, if any.
 fn error_after_notes(html: &str) -> Option<String> {
     let at = html.find("name=\"notes\"")?;
@@ -291,7 +294,7 @@ on_both_backends! {
         let fid = f["id"].to_string();
         let sucrose = app.material_id("Sucrose").await.to_string();
         let program = awkward_program(60.0);
-        let cases: Vec<(&str, Value, String, Vec<(&str, &str)>, &str)> = vec![
+        let cases: Vec<NotesCase> = vec![
             ("/api/v1/formulations", json!({"code": "NOTES-2", "name": "typed name", "notes": long}),
              "/formulations".into(), vec![("code", "NOTES-2"), ("name", "typed name"), ("c0_material", &sucrose), ("c0_concentration", "50")], "typed name"),
             ("/api/v1/measurements", json!({"formulation_id": f["id"], "kind": "tg_prime", "value_c": -32, "method": "dsc", "analyst": "typed analyst", "measured_on": "2024-01-02", "notes": long}),

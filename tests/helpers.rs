@@ -89,6 +89,16 @@ impl TestApp {
         Self::build_with(store, _dir, pg, config)
     }
 
+    /// The same app with its configuration changed by `change`.
+    pub fn with_config(self, change: impl FnOnce(&mut Config)) -> TestApp {
+        let mut config = Config::for_database("test");
+        change(&mut config);
+        let TestApp {
+            store, _dir, pg, ..
+        } = self;
+        Self::build_with(store, _dir, pg, config)
+    }
+
     /// A fresh, migrated PostgreSQL database, when `TEST_DATABASE_URL` names a server.
     pub async fn postgres() -> Option<TestApp> {
         let admin = match std::env::var("TEST_DATABASE_URL") {

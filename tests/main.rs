@@ -4,11 +4,13 @@
 
 mod form_html;
 mod helpers;
+mod host;
 
 mod api;
 mod binary;
 mod calc;
 mod cycles;
+mod errors;
 mod forms;
 mod pages;
 mod science_pages;

@@ -1,7 +1,8 @@
 //! Candidate cycles through the API: list, get with each link's verdict, create, update,
 //! and link a formulation.
 
-use axum::extract::{Path, State};
+use super::extract::Path;
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::{get, post};
 use axum::{Json, Router};

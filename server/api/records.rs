@@ -1,7 +1,8 @@
 //! Record endpoints: list, get, create, update for formulations, materials, measurements
 //! and containers.
 
-use axum::extract::{Path, Query, State};
+use super::extract::{Path, Query};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::get;
 use axum::{Json, Router};

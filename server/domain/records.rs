@@ -251,12 +251,10 @@ impl MaterialForm {
                     measurement_ids,
                 }),
                 None if !citation.is_empty() || !measurement_ids.is_empty() => {
-                    if !errors.has(&value_field) {
-                        errors.add(
-                            &value_field,
-                            "a source is given without a value: give the value, or clear its source",
-                        );
-                    }
+                    errors.add(
+                        &value_field,
+                        "a source is given without a value: give the value, or clear its source",
+                    );
                 }
                 None => {}
             }

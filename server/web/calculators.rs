@@ -2,11 +2,12 @@
 //! of the team's own data without saving anything (only the fitted k can be kept, on
 //! purpose, as an in-house material property).
 
+use super::extract::{Form, Query};
 use askama::Template;
-use axum::extract::{Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use glasspoint_science::cake::{cake_moisture_limit, cake_tg_curve, CakeMoistureLimitInput};
 use glasspoint_science::fit::{
     fit_gordon_taylor, gordon_taylor_curve_c, FitPoint, GordonTaylorFit, GordonTaylorFitInput,

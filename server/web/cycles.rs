@@ -1,11 +1,12 @@
 //! Candidate cycles: create, edit, copy, archive; link formulations; verdicts, charts,
 //! design space and a suggested faster cycle for each link.
 
+use super::extract::{Form, Path, Query};
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use glasspoint_science::design_space::{design_space, BoundaryState, CellState, DesignSpaceInput};
 use glasspoint_science::suggest::{suggest, SuggestInput};
 use glasspoint_science::verdict::{CheckState, CheckTopic, CycleVerdict};

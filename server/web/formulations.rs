@@ -1,10 +1,11 @@
 //! Formulation pages: list with search and filters, detail, create, edit, archive.
 
+use super::extract::{Form, Path, Query};
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use serde::Deserialize;
 
 use super::{draft_and_version, options, render, see_other};

@@ -1,10 +1,11 @@
 //! Materials library pages.
 
+use super::extract::{Form, Path};
 use askama::Template;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::get;
-use axum::{Form, Router};
+use axum::Router;
 
 use super::{draft_and_version, options, render, saved_or_form};
 use crate::domain::*;

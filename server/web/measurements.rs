@@ -1,10 +1,11 @@
 //! Measurement pages: add and edit on a formulation, and the list across formulations.
 
+use super::extract::{Form, Path, Query};
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::get;
-use axum::{Form, Router};
+use axum::Router;
 use serde::Deserialize;
 
 use super::formulations::{into_field_errors, unprocessable};
