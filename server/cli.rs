@@ -1,4 +1,4 @@
-//! The `glasspoint` command line: serve, migrate, seed-demo, calc.
+//! The `glasspoint` command line: serve, migrate, backup, seed-demo, calc.
 
 use std::io::Read;
 use std::net::SocketAddr;
@@ -54,6 +54,14 @@ enum Command {
     },
     /// Apply pending database migrations (and install the shipped library on first run).
     Migrate {
+        #[command(flatten)]
+        db: DatabaseArg,
+    },
+    /// Copy a SQLite database, consistently and while the app runs, into a new FILE
+    /// (never overwritten). PostgreSQL: use pg_dump; this command says how.
+    Backup {
+        /// The new file to write, e.g. glasspoint-2026-11-30.db.
+        file: std::path::PathBuf,
         #[command(flatten)]
         db: DatabaseArg,
     },
@@ -149,6 +157,17 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
                 eprintln!("{warning}");
             }
             serve(store, config).await?;
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Backup { file, db } => {
+            let url = database_url_or_default(db.database);
+            let report = crate::storage::backup::backup(&url, &file).await?;
+            eprintln!(
+                "glasspoint: backed up {url} to {} ({} bytes); open it with --database sqlite://{}",
+                report.file.display(),
+                report.bytes,
+                report.file.display()
+            );
             Ok(ExitCode::SUCCESS)
         }
         Command::Migrate { db } => {

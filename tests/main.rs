@@ -7,6 +7,7 @@ mod helpers;
 mod host;
 
 mod api;
+mod backup;
 mod binary;
 mod calc;
 mod cycles;

@@ -1,6 +1,7 @@
 //! All SQL lives here. One portable SQL text per statement (`$1` placeholders work on both
 //! SQLite and PostgreSQL), run on whichever pool the URL chose.
 
+pub mod backup;
 mod containers;
 mod cycles;
 pub mod demo;
