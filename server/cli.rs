@@ -1,4 +1,4 @@
-//! The `glasspoint` command line: serve, migrate, seed-demo, calc.
+//! The `glasspoint` command line: serve, migrate, backup, seed-demo, calc.
 
 use std::io::Read;
 use std::net::SocketAddr;
@@ -51,9 +51,25 @@ enum Command {
         /// The team's safety margin below the critical temperature, °C (0 to 20).
         #[arg(long, env = "GLASSPOINT_MARGIN_C", default_value_t = glasspoint_science::limit::DEFAULT_MARGIN_C)]
         margin_c: f64,
+        /// Another host name the server answers to, besides localhost, 127.0.0.1, [::1]
+        /// and the bind address (repeatable; the variable takes a comma-separated list).
+        #[arg(
+            long = "allowed-host",
+            env = "GLASSPOINT_ALLOWED_HOSTS",
+            value_delimiter = ','
+        )]
+        allowed_hosts: Vec<String>,
     },
     /// Apply pending database migrations (and install the shipped library on first run).
     Migrate {
+        #[command(flatten)]
+        db: DatabaseArg,
+    },
+    /// Copy a SQLite database, consistently and while the app runs, into a new FILE
+    /// (never overwritten). PostgreSQL: use pg_dump; this command says how.
+    Backup {
+        /// The new file to write, e.g. glasspoint-2026-11-30.db.
+        file: std::path::PathBuf,
         #[command(flatten)]
         db: DatabaseArg,
     },
@@ -139,6 +155,7 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             secure_cookies,
             session_idle_min,
             session_hours,
+            allowed_hosts,
         } => {
             if !(0.0..=glasspoint_science::limit::MAX_MARGIN_C).contains(&margin_c) {
                 return Err(AppError::input(
@@ -171,7 +188,22 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             config.secure_cookies = secure_cookies;
             config.session_idle_min = session_idle_min.clamp(1, 7 * 24 * 60);
             config.session_absolute_h = session_hours.clamp(1, 24 * 30);
+            config.allowed_hosts = crate::config::allowed_hosts_for(bind, &allowed_hosts);
+            if let Some(warning) = config.bind_warning() {
+                eprintln!("{warning}");
+            }
             serve(store, config).await?;
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Backup { file, db } => {
+            let url = database_url_or_default(db.database);
+            let report = crate::storage::backup::backup(&url, &file).await?;
+            eprintln!(
+                "glasspoint: backed up {url} to {} ({} bytes); open it with --database sqlite://{}",
+                report.file.display(),
+                report.bytes,
+                report.file.display()
+            );
             Ok(ExitCode::SUCCESS)
         }
         Command::Migrate { db } => {
@@ -244,7 +276,9 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
 /// The demo accounts' one-time passwords: printed here and stored nowhere but as hashes.
 fn print_demo_users(report: &crate::storage::demo::DemoReport) {
     if !report.new_users.is_empty() {
-        eprintln!("glasspoint: demo accounts (sign in at /login; the passwords are shown this once):");
+        eprintln!(
+            "glasspoint: demo accounts (sign in at /login; the passwords are shown this once):"
+        );
         for (name, role, password) in &report.new_users {
             eprintln!("    {name:<10} {:<10} password: {password}", role.code());
         }
@@ -271,9 +305,9 @@ pub async fn serve(store: Store, config: Config) -> Result<(), AppError> {
         listener,
         app.into_make_service_with_connect_info::<SocketAddr>(),
     )
-        .with_graceful_shutdown(async {
-            let _ = tokio::signal::ctrl_c().await;
-        })
-        .await
-        .map_err(|e| AppError::Internal(e.to_string()))
+    .with_graceful_shutdown(async {
+        let _ = tokio::signal::ctrl_c().await;
+    })
+    .await
+    .map_err(|e| AppError::Internal(e.to_string()))
 }

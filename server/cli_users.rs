@@ -113,7 +113,10 @@ pub async fn run_user(store: &Store, command: UserCommand) -> Result<ExitCode, A
             })?;
             crate::storage::check_username(&name)?;
             if store.user_by_name(&name).await?.is_some() {
-                return Err(AppError::input("NAME", "another account already uses this name"));
+                return Err(AppError::input(
+                    "NAME",
+                    "another account already uses this name",
+                ));
             }
             let password = read_new_password()?;
             let full_name = full_name.unwrap_or_else(|| name.clone());
@@ -128,7 +131,10 @@ pub async fn run_user(store: &Store, command: UserCommand) -> Result<ExitCode, A
                     },
                 )
                 .await?;
-            eprintln!("glasspoint: account '{name}' created with the {} role", role.code());
+            eprintln!(
+                "glasspoint: account '{name}' created with the {} role",
+                role.code()
+            );
         }
         UserCommand::Passwd { name } => {
             let user = find(store, &name).await?;
@@ -161,7 +167,10 @@ pub async fn run_user(store: &Store, command: UserCommand) -> Result<ExitCode, A
         }
         UserCommand::Token { name, scope, label } => {
             let scope = TokenScope::parse(&scope).ok_or_else(|| {
-                AppError::input("--scope", format!("must be one of: {}", TokenScope::codes()))
+                AppError::input(
+                    "--scope",
+                    format!("must be one of: {}", TokenScope::codes()),
+                )
             })?;
             let user = find(store, &name).await?;
             let token = store.create_token(&actor, user.id, scope, &label).await?;

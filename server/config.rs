@@ -26,6 +26,9 @@ pub struct Config {
     pub session_idle_min: i64,
     /// Every session ends this long after sign-in.
     pub session_absolute_h: i64,
+    /// Host names (without port) requests may address; others are refused. `*` allows
+    /// any. See [`allowed_hosts_for`].
+    pub allowed_hosts: Vec<String>,
 }
 
 impl Config {
@@ -40,8 +43,47 @@ impl Config {
             secure_cookies: false,
             session_idle_min: DEFAULT_SESSION_IDLE_MIN,
             session_absolute_h: DEFAULT_SESSION_ABSOLUTE_H,
+            allowed_hosts: allowed_hosts_for(
+                DEFAULT_BIND.parse().expect("default bind address is valid"),
+                &[],
+            ),
         }
     }
+
+    /// The start-up warning for a server listening on every interface: who it answers to
+    /// and how to add a name.
+    pub fn bind_warning(&self) -> Option<String> {
+        if !self.bind.ip().is_unspecified() {
+            return None;
+        }
+        Some(format!(
+            "glasspoint: listening on all interfaces ({}), but answering only requests addressed to: {}. \
+             To reach it under another name or address, add --allowed-host NAME (repeatable) or \
+             GLASSPOINT_ALLOWED_HOSTS=name1,name2.",
+            self.bind,
+            self.allowed_hosts.join(", ")
+        ))
+    }
+}
+
+/// The host names a server bound to `bind` answers to: the bind address's host,
+/// `localhost`, `127.0.0.1` and `[::1]` (any port), then each of `extra`.
+pub fn allowed_hosts_for(bind: SocketAddr, extra: &[String]) -> Vec<String> {
+    let own = match bind.ip() {
+        std::net::IpAddr::V6(ip) => format!("[{ip}]"),
+        ip => ip.to_string(),
+    };
+    let mut hosts = vec![
+        "localhost".to_string(),
+        "127.0.0.1".to_string(),
+        "[::1]".to_string(),
+    ];
+    for name in std::iter::once(own).chain(extra.iter().map(|e| crate::web::host::host_name(e))) {
+        if !name.is_empty() && !hosts.contains(&name) {
+            hosts.push(name);
+        }
+    }
+    hosts
 }
 
 /// The database URL to use: the flag, else `DATABASE_URL` (clap reads it), else a SQLite

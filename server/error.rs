@@ -31,6 +31,14 @@ pub enum AppError {
     Migrate(#[from] sqlx::migrate::MigrateError),
     #[error("internal error: {0}")]
     Internal(String),
+    /// A request refused before it reached a handler's logic: an unreadable path, query or
+    /// body, a body over the limit, a cross-site form post, a host name not served here.
+    #[error("{message}")]
+    Refused {
+        status: StatusCode,
+        field: Option<String>,
+        message: String,
+    },
 }
 
 impl AppError {
@@ -38,8 +46,18 @@ impl AppError {
         AppError::Input(FieldError::new(field, message))
     }
 
+    /// A refused request: `status` with `message`, naming `field` when one is to blame.
+    pub fn refused(status: StatusCode, field: Option<&str>, message: impl Into<String>) -> Self {
+        AppError::Refused {
+            status,
+            field: field.map(str::to_string),
+            message: message.into(),
+        }
+    }
+
     pub fn status(&self) -> StatusCode {
         match self {
+            AppError::Refused { status, .. } => *status,
             AppError::NotFound(_) => StatusCode::NOT_FOUND,
             AppError::Unauthorized => StatusCode::UNAUTHORIZED,
             AppError::Forbidden(_) => StatusCode::FORBIDDEN,
@@ -60,9 +78,16 @@ impl AppError {
                 .unwrap_or_else(|| "invalid input".into()),
             AppError::Conflict(msg) => msg.clone(),
             AppError::Unauthorized => {
-                "Sign in first: send a session cookie or an API token (Authorization: Bearer …).".into()
+                "Sign in first: send a session cookie or an API token (Authorization: Bearer …)."
+                    .into()
             }
             AppError::Forbidden(why) => format!("Not allowed: {why}."),
+            AppError::Refused {
+                field: Some(field),
+                message,
+                ..
+            } => format!("{field}: {message}"),
+            AppError::Refused { message, .. } => message.clone(),
             _ => "Something went wrong on our side. The details were logged.".into(),
         }
     }
@@ -73,6 +98,7 @@ impl AppError {
             AppError::Input(e) => Some(e.field.clone()),
             AppError::Fields(all) => all.first().map(|e| e.field),
             AppError::Conflict(_) => Some("version".into()),
+            AppError::Refused { field, .. } => field.clone(),
             _ => None,
         }
     }
@@ -122,6 +148,7 @@ impl IntoResponse for ApiError {
         let message = match &self.0 {
             AppError::Input(e) => e.message.clone(),
             AppError::Fields(all) => all.first().map(|e| e.message).unwrap_or_default(),
+            AppError::Refused { message, .. } => message.clone(),
             other => other.public_message(),
         };
         let body = serde_json::json!({ "error": message, "field": self.0.field() });

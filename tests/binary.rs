@@ -97,3 +97,56 @@ fn calc_answers_json_and_refuses_bad_input_with_status_2_naming_the_field() {
     assert_eq!(code, 2);
     assert!(err.contains("topic"), "{err}");
 }
+
+#[test]
+fn backup_writes_a_new_file_refuses_an_existing_one_and_points_postgres_to_pg_dump() {
+    let dir = tempfile::tempdir().unwrap();
+    let db = format!("sqlite://{}", dir.path().join("live.db").display());
+    let migrate = Command::new(binary())
+        .args(["migrate", "--database", &db])
+        .output()
+        .unwrap();
+    assert!(migrate.status.success(), "{migrate:?}");
+    let copy = dir.path().join("copy.db");
+    let copy_arg = copy.display().to_string();
+    let first = Command::new(binary())
+        .args(["backup", &copy_arg, "--database", &db])
+        .output()
+        .unwrap();
+    assert!(first.status.success(), "{first:?}");
+    assert!(copy.metadata().unwrap().len() > 0);
+
+    let again = Command::new(binary())
+        .args(["backup", &copy_arg, "--database", &db])
+        .output()
+        .unwrap();
+    assert_eq!(again.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&again.stderr).contains("already exists"));
+
+    let missing = Command::new(binary())
+        .args([
+            "backup",
+            &dir.path().join("other.db").display().to_string(),
+            "--database",
+            &format!("sqlite://{}", dir.path().join("nope.db").display()),
+        ])
+        .output()
+        .unwrap();
+    assert!(!missing.status.success());
+    assert!(
+        !dir.path().join("nope.db").exists(),
+        "a missing database is not created"
+    );
+
+    let pg = Command::new(binary())
+        .args([
+            "backup",
+            &dir.path().join("pg.db").display().to_string(),
+            "--database",
+            "postgres://nobody@127.0.0.1:1/none",
+        ])
+        .output()
+        .unwrap();
+    assert!(!pg.status.success());
+    assert!(String::from_utf8_lossy(&pg.stderr).contains("pg_dump"));
+}

@@ -32,6 +32,15 @@ pub struct Reply {
 }
 
 impl Reply {
+    /// The content type of the reply, without parameters ("" when absent).
+    pub fn content_type(&self) -> &str {
+        self.headers
+            .get(header::CONTENT_TYPE)
+            .and_then(|v| v.to_str().ok())
+            .map(|v| v.split(';').next().unwrap_or("").trim())
+            .unwrap_or("")
+    }
+
     pub fn json(&self) -> serde_json::Value {
         serde_json::from_str(&self.body).unwrap_or_else(|e| panic!("not JSON ({e}): {}", self.body))
     }
@@ -143,6 +152,20 @@ impl TestApp {
     pub fn with_margin(self, margin_c: f64) -> TestApp {
         let mut config = Config::for_database("test");
         config.margin_c = margin_c;
+        let TestApp {
+            store,
+            _dir,
+            pg,
+            admin,
+            ..
+        } = self;
+        Self::build_with(store, _dir, pg, config, admin)
+    }
+
+    /// The same app with its configuration changed by `change`.
+    pub fn with_config(self, change: impl FnOnce(&mut Config)) -> TestApp {
+        let mut config = Config::for_database("test");
+        change(&mut config);
         let TestApp {
             store,
             _dir,
@@ -267,6 +290,7 @@ impl Reply {
             .get(header::LOCATION)
             .and_then(|v| v.to_str().ok())
             .map(str::to_string);
+        let headers = response.headers().clone();
         let bytes = response
             .into_body()
             .collect()

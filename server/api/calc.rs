@@ -1,6 +1,7 @@
 //! `POST /api/v1/calc/TOPIC`: the science, one JSON shape shared with `glasspoint calc`.
 
-use axum::extract::{Path, State};
+use super::extract::Path;
+use axum::extract::State;
 use axum::routing::post;
 use axum::{Json, Router};
 use serde_json::Value;

@@ -1,8 +1,9 @@
 //! Candidate cycles through the API: list, get with each link's verdict, create, update,
 //! and link a formulation.
 
+use super::extract::Path;
 use crate::auth::Actor;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::{get, post};
 use axum::{Json, Router};
@@ -37,30 +38,28 @@ pub struct CycleInput {
 }
 
 impl CycleInput {
+    /// The same checks as the cycle form: shared limits on name and notes, the ceiling,
+    /// then the program itself.
     fn draft(&self) -> Result<CycleDraft, AppError> {
-        let name = self.name.trim();
-        if name.is_empty() {
-            return Err(AppError::input("name", "is required"));
-        }
-        if name.chars().count() > 120 {
-            return Err(AppError::input("name", "must be at most 120 characters"));
-        }
-        validate_cycle(&self.program)
-            .map_err(|e| AppError::input(format!("program.{}", e.field), e.message))?;
-        if let Some(c) = self.sublimation_ceiling_kg_h_m2 {
-            if !c.is_finite() || c <= 0.0 || c > 100.0 {
-                return Err(AppError::input(
-                    "sublimation_ceiling_kg_h_m2",
-                    "must be above 0 and at most 100 kg/(h·m²)",
-                ));
+        let mut e = FieldErrors::default();
+        let (name, notes) = check_cycle_fields(
+            &mut e,
+            &self.name,
+            &self.notes,
+            self.sublimation_ceiling_kg_h_m2,
+        );
+        if e.is_empty() {
+            if let Err(err) = validate_cycle(&self.program) {
+                e.add(format!("program.{}", err.field), err.message);
             }
         }
-        Ok(CycleDraft {
-            name: name.to_string(),
-            notes: self.notes.trim().to_string(),
+        let draft = e.into_result(CycleDraft {
+            name,
+            notes,
             program: self.program.clone(),
             sublimation_ceiling_kg_h_m2: self.sublimation_ceiling_kg_h_m2,
-        })
+        })?;
+        Ok(draft)
     }
 }
 
@@ -160,7 +159,10 @@ pub async fn update_cycle(
             "is required on update: send the version you read",
         )
     })?;
-    state.store.update_cycle(&actor, id, version, &draft).await?;
+    state
+        .store
+        .update_cycle(&actor, id, version, &draft)
+        .await?;
     get_cycle(State(state), Path(id)).await
 }
 

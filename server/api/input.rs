@@ -7,7 +7,7 @@ use utoipa::ToSchema;
 use crate::domain::*;
 
 fn num(v: Option<f64>) -> String {
-    v.map(|v| v.to_string()).unwrap_or_default()
+    v.map(number_text).unwrap_or_default()
 }
 
 #[derive(Debug, Deserialize, ToSchema)]
@@ -96,6 +96,9 @@ pub struct PropertyInput {
     /// literature | in_house (default literature)
     pub source_kind: Option<String>,
     pub citation: String,
+    /// For in-house values: the measurements the value came from.
+    #[serde(default)]
+    pub measurement_ids: Vec<i64>,
 }
 
 #[derive(Debug, Deserialize, ToSchema)]
@@ -145,6 +148,7 @@ impl MaterialInput {
                 convention: p.convention.clone().unwrap_or_default(),
                 citation: p.citation.clone(),
                 source_kind: p.source_kind.clone().unwrap_or_default(),
+                measurements: join_ids(&p.measurement_ids),
             };
         }
         Ok(form)
@@ -156,6 +160,7 @@ impl MaterialInput {
             if let Some(part) = field.strip_prefix(&format!("{}_", p.kind)) {
                 let part = match part {
                     "source" => "source_kind",
+                    "measurements" => "measurement_ids",
                     other => other,
                 };
                 return format!("properties[{i}].{part}");

@@ -3,6 +3,7 @@
 mod audit;
 mod calc;
 mod cycles;
+pub mod extract;
 mod input;
 mod records;
 
@@ -106,10 +107,7 @@ where
             .map_err(|e| {
                 let status = e.status();
                 if status == axum::http::StatusCode::PAYLOAD_TOO_LARGE {
-                    ApiError(crate::AppError::input(
-                        "body",
-                        "the request body is too large",
-                    ))
+                    ApiError(crate::web::extract::too_large())
                 } else {
                     ApiError(crate::AppError::input(
                         "body",

@@ -1,8 +1,9 @@
 //! Record endpoints: list, get, create, update for formulations, materials, measurements
 //! and containers.
 
+use super::extract::{Path, Query};
 use crate::auth::Actor;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::routing::get;
 use axum::{Json, Router};
@@ -151,7 +152,10 @@ pub async fn update_formulation(
     let updated = async {
         let draft = input.to_form().parse()?;
         let version = required_version(input.version)?;
-        state.store.update_formulation(&actor, id, version, &draft, &input.reason).await?;
+        state
+            .store
+            .update_formulation(&actor, id, version, &draft, &input.reason)
+            .await?;
         state.store.get_formulation(id).await
     }
     .await
@@ -208,7 +212,10 @@ pub async fn update_material(
     let updated = async {
         let draft = form.parse()?;
         let version = required_version(input.version)?;
-        state.store.update_material(&actor, id, version, &draft).await?;
+        state
+            .store
+            .update_material(&actor, id, version, &draft)
+            .await?;
         state.store.get_material(id).await
     }
     .await
@@ -262,7 +269,11 @@ pub async fn create_measurement(
         .formulation_id
         .ok_or_else(|| AppError::input("formulation_id", "is required"))?;
     let draft = input.to_form().parse(today())?;
-    let id = match state.store.create_measurement(&actor, formulation_id, &draft).await {
+    let id = match state
+        .store
+        .create_measurement(&actor, formulation_id, &draft)
+        .await
+    {
         Err(AppError::NotFound(_)) => {
             return Err(AppError::input(
                 "formulation_id",
@@ -290,7 +301,10 @@ pub async fn update_measurement(
 ) -> ApiResult<Json<Measurement>> {
     let draft = input.to_form().parse(today())?;
     let version = required_version(input.version)?;
-    state.store.update_measurement(&actor, id, version, &draft, &input.reason).await?;
+    state
+        .store
+        .update_measurement(&actor, id, version, &draft, &input.reason)
+        .await?;
     Ok(Json(state.store.get_measurement(id).await?))
 }
 
@@ -338,6 +352,9 @@ pub async fn update_container(
 ) -> ApiResult<Json<Container>> {
     let draft = input.to_form().parse()?;
     let version = required_version(input.version)?;
-    state.store.update_container(&actor, id, version, &draft).await?;
+    state
+        .store
+        .update_container(&actor, id, version, &draft)
+        .await?;
     Ok(Json(state.store.get_container(id).await?))
 }

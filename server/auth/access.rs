@@ -56,7 +56,11 @@ pub const RULES: &[Rule] = &[
     // Measurements.
     rule("GET", "/measurements", Least(Reader)),
     rule("POST", "/formulations/{id}/measurements", Least(Scientist)),
-    rule("GET", "/formulations/{id}/measurements/new", Least(Scientist)),
+    rule(
+        "GET",
+        "/formulations/{id}/measurements/new",
+        Least(Scientist),
+    ),
     rule("POST", "/measurements/{id}", Least(Scientist)),
     rule("GET", "/measurements/{id}/edit", Least(Scientist)),
     // Materials and containers.
@@ -84,13 +88,29 @@ pub const RULES: &[Rule] = &[
     rule("POST", "/cycles/{id}/links", Least(Scientist)),
     rule("GET", "/cycles/{id}/links/{link}", Least(Reader)),
     rule("POST", "/cycles/{id}/links/{link}/remove", Least(Scientist)),
-    rule("POST", "/cycles/{id}/links/{link}/suggest", Least(Scientist)),
-    rule("GET", "/cycles/{id}/links/{link}/design-space", Least(Reader)),
-    rule("GET", "/cycles/{id}/links/{link}/temperatures.svg", Least(Reader)),
+    rule(
+        "POST",
+        "/cycles/{id}/links/{link}/suggest",
+        Least(Scientist),
+    ),
+    rule(
+        "GET",
+        "/cycles/{id}/links/{link}/design-space",
+        Least(Reader),
+    ),
+    rule(
+        "GET",
+        "/cycles/{id}/links/{link}/temperatures.svg",
+        Least(Reader),
+    ),
     rule("GET", "/cycles/{id}/links/{link}/layer.svg", Least(Reader)),
     rule("GET", "/cycles/{id}/links/{link}/rate.svg", Least(Reader)),
     rule("GET", "/cycles/{id}/links/{link}/gauges.svg", Least(Reader)),
-    rule("GET", "/cycles/{id}/links/{link}/design-space.svg", Least(Reader)),
+    rule(
+        "GET",
+        "/cycles/{id}/links/{link}/design-space.svg",
+        Least(Reader),
+    ),
     // Calculators.
     rule("GET", "/calculators", Least(Reader)),
     rule("GET", "/calculators/mixture.svg", Least(Reader)),
@@ -99,7 +119,11 @@ pub const RULES: &[Rule] = &[
     rule("POST", "/calculators/fit/save", Least(Scientist)),
     // History, signatures, review and the audit trail.
     rule("GET", "/records/{entity}/{id}/history", Least(Reader)),
-    rule("GET", "/records/{entity}/{id}/versions/{version}", Least(Reader)),
+    rule(
+        "GET",
+        "/records/{entity}/{id}/versions/{version}",
+        Least(Reader),
+    ),
     rule("GET", "/records/{entity}/{id}/diff", Least(Reader)),
     rule("GET", "/records/{entity}/{id}/sign", Least(Reviewer)),
     rule("POST", "/records/{entity}/{id}/sign", Least(Reviewer)),
@@ -150,4 +174,13 @@ pub fn rule_for(method: &str, matched_path: &str) -> Option<Access> {
         .iter()
         .find(|r| r.method == method && r.path == matched_path)
         .map(|r| r.access)
+}
+
+/// The methods a route path has rules for (for a 405's `Allow`).
+pub fn methods_for(matched_path: &str) -> Vec<&'static str> {
+    RULES
+        .iter()
+        .filter(|r| r.path == matched_path)
+        .map(|r| r.method)
+        .collect()
 }

@@ -1,6 +1,8 @@
 //! Password hashing (argon2id), random secrets and their digests.
 
-use argon2::password_hash::{rand_core::OsRng, PasswordHash, PasswordHasher, PasswordVerifier, SaltString};
+use argon2::password_hash::{
+    rand_core::OsRng, PasswordHash, PasswordHasher, PasswordVerifier, SaltString,
+};
 use argon2::Argon2;
 use rand::RngCore;
 use sha2::{Digest, Sha256};

@@ -56,13 +56,54 @@ fn to_mtorr(value: f64, unit: &str) -> f64 {
     }
 }
 
-/// A cycle as typed. Holds are in hours, ramps in °C/min, pressures in `pressure_unit`.
+/// Units a user may type hold times in.
+pub const HOLD_UNITS: &[&str] = &["h", "min"];
+
+/// Hold minutes as the form shows them in `unit`.
+fn hold_text(min: f64, unit: &str) -> String {
+    match unit {
+        "min" => number_text(min),
+        _ => number_text(min / 60.0),
+    }
+}
+
+/// Whether `min` minutes shown in hours read back as exactly the same minutes.
+fn hours_round_trip(min: f64) -> bool {
+    number_text(min / 60.0)
+        .parse::<f64>()
+        .is_ok_and(|h| (h * 60.0).to_bits() == min.to_bits())
+}
+
+/// The checks every cycle passes, typed into the form or sent as JSON: the name, the
+/// notes and the optional sublimation-rate ceiling. Returns the trimmed name and notes.
+pub fn check_cycle_fields(
+    e: &mut FieldErrors,
+    name: &str,
+    notes: &str,
+    sublimation_ceiling_kg_h_m2: Option<f64>,
+) -> (String, String) {
+    let name = required_text(e, "name", name, limits::NAME_CHARS);
+    let notes = notes_text(e, "notes", notes);
+    check_positive(
+        e,
+        "sublimation_ceiling_kg_h_m2",
+        sublimation_ceiling_kg_h_m2,
+        100.0,
+        "kg/(h·m²)",
+    );
+    (name, notes)
+}
+
+/// A cycle as typed. Holds are in `hold_unit` (hours unless a stored hold is only exact in
+/// minutes), ramps in °C/min, pressures in `pressure_unit`.
 #[derive(Debug, Clone, Default, serde::Deserialize, serde::Serialize)]
 #[serde(default)]
 pub struct CycleForm {
     pub name: String,
     pub notes: String,
     pub pressure_unit: String,
+    /// "h" (the default) or "min"; the `*_hold_h` fields are in this unit.
+    pub hold_unit: String,
     pub freezing_ramp_c_per_min: String,
     pub freezing_hold_temp_c: String,
     pub freezing_hold_h: String,
@@ -82,16 +123,13 @@ pub struct CycleForm {
     pub version: String,
 }
 
-fn hours(min: f64) -> String {
-    crate::storage::trim_number(min / 60.0)
-}
-
 impl CycleForm {
     /// A sensible starting point (common practice, no source): freeze to −40 °C for 2 h,
     /// primary drying at −25 °C and 100 mTorr, secondary at 40 °C.
     pub fn starting_point() -> Self {
         CycleForm {
             pressure_unit: "mTorr".into(),
+            hold_unit: "h".into(),
             freezing_ramp_c_per_min: "1".into(),
             freezing_hold_temp_c: "-40".into(),
             freezing_hold_h: "2".into(),
@@ -107,13 +145,29 @@ impl CycleForm {
         }
     }
 
+    /// The form showing a stored cycle exactly: numbers in their shortest exact text,
+    /// pressures in mTorr (the stored unit) and holds in hours when every hold reads back
+    /// exactly, else in minutes.
     pub fn from_cycle(c: &Cycle) -> Self {
         let p = &c.program;
-        let n = crate::storage::trim_number;
+        let n = number_text;
+        let holds = [
+            Some(p.freezing.hold_min),
+            p.annealing.map(|a| a.hold_min),
+            Some(p.primary.hold_min),
+            Some(p.secondary.hold_min),
+        ];
+        let unit = if holds.iter().flatten().all(|m| hours_round_trip(*m)) {
+            "h"
+        } else {
+            "min"
+        };
+        let hours = |min: f64| hold_text(min, unit);
         CycleForm {
             name: c.name.clone(),
             notes: c.notes.clone(),
             pressure_unit: "mTorr".into(),
+            hold_unit: unit.into(),
             freezing_ramp_c_per_min: n(p.freezing.ramp_c_per_min),
             freezing_hold_temp_c: n(p.freezing.hold_temp_c),
             freezing_hold_h: hours(p.freezing.hold_min),
@@ -140,8 +194,14 @@ impl CycleForm {
 
     pub fn parse(&self) -> Result<CycleDraft, FieldErrors> {
         let mut e = FieldErrors::default();
-        let name = required_text(&mut e, "name", &self.name, 120);
-        let notes = optional_text(&mut e, "notes", &self.notes, 8000);
+        let hold_factor = match self.hold_unit.trim() {
+            "" | "h" => 60.0,
+            "min" => 1.0,
+            other => {
+                e.add("hold_unit", format!("“{other}” is not one of: h, min"));
+                60.0
+            }
+        };
         let unit = match self.pressure_unit.trim() {
             "" => "mTorr",
             u if PRESSURE_UNITS.contains(&u) => u,
@@ -158,7 +218,7 @@ impl CycleForm {
         let freezing = FreezingStep {
             ramp_c_per_min: req("freezing_ramp_c_per_min", &self.freezing_ramp_c_per_min),
             hold_temp_c: req("freezing_hold_temp_c", &self.freezing_hold_temp_c),
-            hold_min: req("freezing_hold_h", &self.freezing_hold_h) * 60.0,
+            hold_min: req("freezing_hold_h", &self.freezing_hold_h) * hold_factor,
         };
         let primary = PrimaryStep {
             ramp_c_per_min: req("primary_ramp_c_per_min", &self.primary_ramp_c_per_min),
@@ -167,13 +227,13 @@ impl CycleForm {
                 req("primary_chamber_pressure", &self.primary_chamber_pressure),
                 unit,
             ),
-            hold_min: req("primary_hold_h", &self.primary_hold_h) * 60.0,
+            hold_min: req("primary_hold_h", &self.primary_hold_h) * hold_factor,
         };
         let secondary = SecondaryStep {
             ramp_c_per_min: req("secondary_ramp_c_per_min", &self.secondary_ramp_c_per_min),
             shelf_temp_c: req("secondary_shelf_temp_c", &self.secondary_shelf_temp_c),
             pressure_mtorr: to_mtorr(req("secondary_pressure", &self.secondary_pressure), unit),
-            hold_min: req("secondary_hold_h", &self.secondary_hold_h) * 60.0,
+            hold_min: req("secondary_hold_h", &self.secondary_hold_h) * hold_factor,
         };
         let anneal_temp = optional_number(&mut e, "annealing_temp_c", &self.annealing_temp_c);
         let anneal_hold = optional_number(&mut e, "annealing_hold_h", &self.annealing_hold_h);
@@ -185,7 +245,7 @@ impl CycleForm {
         let annealing = match (anneal_temp, anneal_hold) {
             (Some(temp_c), Some(h)) => Some(AnnealingStep {
                 temp_c,
-                hold_min: h * 60.0,
+                hold_min: h * hold_factor,
                 return_ramp_c_per_min: anneal_ramp,
             }),
             (None, None) => {
@@ -218,13 +278,7 @@ impl CycleForm {
             "sublimation_ceiling_kg_h_m2",
             &self.sublimation_ceiling_kg_h_m2,
         );
-        check_positive(
-            &mut e,
-            "sublimation_ceiling_kg_h_m2",
-            ceiling,
-            100.0,
-            "kg/(h·m²)",
-        );
+        let (name, notes) = check_cycle_fields(&mut e, &self.name, &self.notes, ceiling);
         let program = CycleProgram {
             freezing,
             annealing,
@@ -279,6 +333,17 @@ pub struct ResistanceForm {
 }
 
 impl ResistanceForm {
+    /// The form showing a measured resistance exactly.
+    pub fn from_resistance(r: &DryLayerResistance) -> Self {
+        ResistanceForm {
+            r0_cm2_torr_h_g: number_text(r.resistance.r0_cm2_torr_h_g),
+            a1_cm_torr_h_g: number_text(r.resistance.a1_cm_torr_h_g),
+            a2_per_cm: number_text(r.resistance.a2_per_cm),
+            source: r.source.clone(),
+            version: r.version.to_string(),
+        }
+    }
+
     pub fn parse(&self) -> Result<(Resistance, String), FieldErrors> {
         let mut e = FieldErrors::default();
         let r0 = required_number(&mut e, "r0_cm2_torr_h_g", &self.r0_cm2_torr_h_g);
@@ -293,7 +358,7 @@ impl ResistanceForm {
                 "a dried layer with no resistance at all is not physical",
             );
         }
-        let source = required_text(&mut e, "source", &self.source, 500);
+        let source = required_text(&mut e, "source", &self.source, limits::SOURCE_CHARS);
         e.into_result((
             Resistance {
                 r0_cm2_torr_h_g: r0.unwrap_or_default(),

@@ -86,22 +86,81 @@ impl From<FieldError> for FieldErrors {
     }
 }
 
-/// A trimmed text that must not be empty and must fit `max` characters.
+/// The one set of limits every input path shares: the pages' forms and the JSON API parse
+/// through the same functions, so a value one accepts the other accepts too.
+pub mod limits {
+    /// Names of materials, containers and cycles; analysts, pans, instruments, projects.
+    pub const NAME_CHARS: usize = 120;
+    /// A formulation's descriptive name.
+    pub const LONG_NAME_CHARS: usize = 200;
+    /// A formulation's code.
+    pub const CODE_CHARS: usize = 40;
+    /// One tag.
+    pub const TAG_CHARS: usize = 40;
+    /// Citations and other statements of where a value came from.
+    pub const SOURCE_CHARS: usize = 500;
+    /// Free-text notes of any record.
+    pub const NOTES_CHARS: usize = 8000;
+    /// Components of one formulation.
+    pub const MAX_COMPONENTS: usize = 50;
+}
+
+/// A number as a form shows it: Rust's shortest text that reads back as the same `f64`, so
+/// saving a form unchanged never rounds a stored value.
+pub fn number_text(v: f64) -> String {
+    v.to_string()
+}
+
+/// Checks a one-line text: browsers drop line breaks from single-line inputs, and control
+/// characters cannot be typed, so neither may be stored.
+fn check_line(errors: &mut FieldErrors, field: &str, value: &str, max: usize) {
+    if value.chars().any(|c| c == '\n' || c == '\r') {
+        errors.add(field, "must be a single line (no line breaks)");
+    } else if value.chars().any(char::is_control) {
+        errors.add(field, "must not contain control characters");
+    } else if value.chars().count() > max {
+        errors.add(field, format!("must be at most {max} characters"));
+    }
+}
+
+/// A trimmed one-line text that must not be empty and must fit `max` characters.
 pub fn required_text(errors: &mut FieldErrors, field: &str, raw: &str, max: usize) -> String {
     let value = raw.trim();
     if value.is_empty() {
         errors.add(field, "is required");
-    } else if value.chars().count() > max {
-        errors.add(field, format!("must be at most {max} characters"));
+    } else {
+        check_line(errors, field, value, max);
     }
     value.to_string()
 }
 
-/// A trimmed optional text that must fit `max` characters.
+/// A trimmed optional one-line text that must fit `max` characters.
 pub fn optional_text(errors: &mut FieldErrors, field: &str, raw: &str, max: usize) -> String {
     let value = raw.trim();
-    if value.chars().count() > max {
-        errors.add(field, format!("must be at most {max} characters"));
+    check_line(errors, field, value, max);
+    value.to_string()
+}
+
+/// Free-text notes: trimmed, line breaks stored as `\n` (browsers send `\r\n` from a
+/// text area, so a stored note survives a form round trip), at most
+/// [`limits::NOTES_CHARS`] characters.
+pub fn notes_text(errors: &mut FieldErrors, field: &str, raw: &str) -> String {
+    let value = raw.replace("\r\n", "\n").replace('\r', "\n");
+    let value = value.trim();
+    let max = limits::NOTES_CHARS;
+    if value
+        .chars()
+        .any(|c| c.is_control() && c != '\n' && c != '\t')
+    {
+        errors.add(field, "must not contain control characters");
+    } else if value.chars().count() > max {
+        errors.add(
+            field,
+            format!(
+                "must be at most {max} characters (this has {})",
+                value.chars().count()
+            ),
+        );
     }
     value.to_string()
 }

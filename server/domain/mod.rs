@@ -11,5 +11,5 @@ pub mod records;
 pub use audit::*;
 pub use cycles::*;
 pub use enums::*;
-pub use fields::{FieldError, FieldErrors};
+pub use fields::{limits, number_text, FieldError, FieldErrors};
 pub use records::*;

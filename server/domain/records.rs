@@ -88,11 +88,13 @@ pub struct PropertyForm {
     pub convention: String,
     pub citation: String,
     pub source_kind: String,
+    /// Ids of the in-house measurements the value came from, comma separated.
+    pub measurements: String,
 }
 
 impl MaterialForm {
     /// Builds the form from urlencoded pairs (property fields are `{kind}_value`,
-    /// `{kind}_convention`, `{kind}_citation`, `{kind}_source`).
+    /// `{kind}_convention`, `{kind}_citation`, `{kind}_source`, `{kind}_measurements`).
     pub fn from_pairs(pairs: &[(String, String)]) -> Self {
         let get = |k: &str| {
             pairs
@@ -118,6 +120,7 @@ impl MaterialForm {
                             convention: get(&format!("{c}_convention")),
                             citation: get(&format!("{c}_citation")),
                             source_kind: get(&format!("{c}_source")),
+                            measurements: get(&format!("{c}_measurements")),
                         },
                     )
                 })
@@ -140,11 +143,14 @@ impl MaterialForm {
                     (
                         *k,
                         PropertyForm {
-                            value: p.map(|p| p.value.to_string()).unwrap_or_default(),
+                            value: p.map(|p| number_text(p.value)).unwrap_or_default(),
                             convention: p.and_then(|p| p.convention.clone()).unwrap_or_default(),
                             citation: p.map(|p| p.citation.clone()).unwrap_or_default(),
                             source_kind: p
                                 .map(|p| p.source_kind.code().to_string())
+                                .unwrap_or_default(),
+                            measurements: p
+                                .map(|p| join_ids(&p.measurement_ids))
                                 .unwrap_or_default(),
                         },
                     )
@@ -163,7 +169,7 @@ impl MaterialForm {
 
     pub fn parse(&self) -> Result<MaterialDraft, FieldErrors> {
         let mut errors = FieldErrors::default();
-        let name = required_text(&mut errors, "name", &self.name, 120);
+        let name = required_text(&mut errors, "name", &self.name, limits::NAME_CHARS);
         let role = parse_choice(
             &mut errors,
             "role",
@@ -178,7 +184,7 @@ impl MaterialForm {
             FreezingBehaviour::parse,
             FreezingBehaviour::codes,
         );
-        let notes = optional_text(&mut errors, "notes", &self.notes, 4000);
+        let notes = notes_text(&mut errors, "notes", &self.notes);
         let mut properties = Vec::new();
         for (kind, p) in &self.properties {
             let code = kind.code();
@@ -192,8 +198,17 @@ impl MaterialForm {
             ) {
                 check_positive(&mut errors, &value_field, value, max, "");
             }
-            let citation =
-                optional_text(&mut errors, &format!("{code}_citation"), &p.citation, 500);
+            let citation = optional_text(
+                &mut errors,
+                &format!("{code}_citation"),
+                &p.citation,
+                limits::SOURCE_CHARS,
+            );
+            let measurement_ids = measurement_ids(
+                &mut errors,
+                &format!("{code}_measurements"),
+                &p.measurements,
+            );
             let convention = p.convention.trim();
             let convention = if convention.is_empty() || !kind.has_convention() {
                 None
@@ -233,8 +248,14 @@ impl MaterialForm {
                     convention,
                     source_kind,
                     citation,
-                    measurement_ids: Vec::new(),
+                    measurement_ids,
                 }),
+                None if !citation.is_empty() || !measurement_ids.is_empty() => {
+                    errors.add(
+                        &value_field,
+                        "a source is given without a value: give the value, or clear its source",
+                    );
+                }
                 None => {}
             }
         }
@@ -245,6 +266,43 @@ impl MaterialForm {
             notes,
             properties,
         })
+    }
+}
+
+/// Measurement ids as a form shows them: "3,5".
+pub fn join_ids(ids: &[i64]) -> String {
+    ids.iter().map(i64::to_string).collect::<Vec<_>>().join(",")
+}
+
+/// Measurement ids typed or carried in a form: whole numbers, comma separated.
+fn measurement_ids(errors: &mut FieldErrors, field: &str, raw: &str) -> Vec<i64> {
+    let mut ids = Vec::new();
+    for part in raw.split(',').map(str::trim).filter(|p| !p.is_empty()) {
+        match part.parse::<i64>() {
+            Ok(id) if id > 0 => ids.push(id),
+            _ => {
+                errors.add(
+                    field,
+                    format!("“{part}” is not a measurement id (a whole number)"),
+                );
+            }
+        }
+    }
+    ids
+}
+
+/// One tag: a line of at most [`limits::TAG_CHARS`] characters.
+fn check_tag(errors: &mut FieldErrors, tag: &str) {
+    if tag.chars().count() > limits::TAG_CHARS {
+        errors.add(
+            "tags",
+            format!("each tag must be at most {} characters", limits::TAG_CHARS),
+        );
+    } else if tag.chars().any(char::is_control) {
+        errors.add(
+            "tags",
+            "a tag must not contain line breaks or control characters",
+        );
     }
 }
 
@@ -318,12 +376,12 @@ impl ContainerForm {
         ContainerForm {
             name: c.name.clone(),
             kind: c.kind.code().into(),
-            nominal_ml: c.nominal_ml.to_string(),
-            inner_area_cm2: c.inner_area_cm2.to_string(),
-            outer_area_cm2: c.outer_area_cm2.to_string(),
-            kc_cal_s_cm2_k: c.kc_cal_s_cm2_k.to_string(),
-            kp_cal_s_cm2_k_torr: c.kp_cal_s_cm2_k_torr.to_string(),
-            kd_per_torr: c.kd_per_torr.to_string(),
+            nominal_ml: number_text(c.nominal_ml),
+            inner_area_cm2: number_text(c.inner_area_cm2),
+            outer_area_cm2: number_text(c.outer_area_cm2),
+            kc_cal_s_cm2_k: number_text(c.kc_cal_s_cm2_k),
+            kp_cal_s_cm2_k_torr: number_text(c.kp_cal_s_cm2_k_torr),
+            kd_per_torr: number_text(c.kd_per_torr),
             kv_source: c.kv_source.clone(),
             typical_values: if c.typical_values {
                 "on".into()
@@ -337,7 +395,7 @@ impl ContainerForm {
 
     pub fn parse(&self) -> Result<ContainerDraft, FieldErrors> {
         let mut e = FieldErrors::default();
-        let name = required_text(&mut e, "name", &self.name, 120);
+        let name = required_text(&mut e, "name", &self.name, limits::NAME_CHARS);
         let kind = parse_choice(
             &mut e,
             "kind",
@@ -372,8 +430,8 @@ impl ContainerForm {
         );
         let kd = required_number(&mut e, "kd_per_torr", &self.kd_per_torr);
         check_range(&mut e, "kd_per_torr", kd, 0.0, 100.0, "1/Torr");
-        let kv_source = required_text(&mut e, "kv_source", &self.kv_source, 500);
-        let notes = optional_text(&mut e, "notes", &self.notes, 4000);
+        let kv_source = required_text(&mut e, "kv_source", &self.kv_source, limits::SOURCE_CHARS);
+        let notes = notes_text(&mut e, "notes", &self.notes);
         let typical = matches!(self.typical_values.trim(), "on" | "true" | "1" | "yes");
         e.into_result(ContainerDraft {
             name,
@@ -506,8 +564,18 @@ pub struct FormulationForm {
     pub reason: String,
 }
 
-/// Longest composition a form accepts.
-pub const MAX_COMPONENTS: usize = 20;
+/// Longest composition a form or the API accepts.
+pub const MAX_COMPONENTS: usize = limits::MAX_COMPONENTS;
+
+/// `c12_concentration` → (12, "concentration").
+fn component_key(key: &str) -> Option<(usize, &str)> {
+    let rest = key.strip_prefix('c')?;
+    let (index, part) = rest.split_once('_')?;
+    if index.is_empty() || index.len() > 6 || !index.chars().all(|c| c.is_ascii_digit()) {
+        return None;
+    }
+    Some((index.parse().ok()?, part))
+}
 
 impl FormulationForm {
     pub fn from_pairs(pairs: &[(String, String)]) -> Self {
@@ -518,13 +586,26 @@ impl FormulationForm {
                 .map(|(_, v)| v.clone())
                 .unwrap_or_default()
         };
-        let components = (0..MAX_COMPONENTS)
-            .map(|i| ComponentRow {
-                material_id: get(&format!("c{i}_material")),
-                concentration: get(&format!("c{i}_concentration")),
-                unit: get(&format!("c{i}_unit")),
-            })
-            .collect();
+        // Every row the form posted, in row order, however many there are: rows past the
+        // limit are refused by `parse`, never dropped.
+        let mut rows: std::collections::BTreeMap<usize, ComponentRow> = Default::default();
+        let mut seen = std::collections::HashSet::new();
+        for (key, value) in pairs {
+            let Some((index, part)) = component_key(key) else {
+                continue;
+            };
+            if !seen.insert(key.as_str()) {
+                continue;
+            }
+            let row = rows.entry(index).or_default();
+            match part {
+                "material" => row.material_id = value.clone(),
+                "concentration" => row.concentration = value.clone(),
+                "unit" => row.unit = value.clone(),
+                _ => {}
+            }
+        }
+        let components = rows.into_values().collect();
         FormulationForm {
             code: get("code"),
             name: get("name"),
@@ -547,8 +628,8 @@ impl FormulationForm {
             name: f.name.clone(),
             project: f.project.clone(),
             status: f.status.code().into(),
-            ph: f.ph.map(|v| v.to_string()).unwrap_or_default(),
-            fill_volume_ml: f.fill_volume_ml.map(|v| v.to_string()).unwrap_or_default(),
+            ph: f.ph.map(number_text).unwrap_or_default(),
+            fill_volume_ml: f.fill_volume_ml.map(number_text).unwrap_or_default(),
             container_id: f.container_id.map(|v| v.to_string()).unwrap_or_default(),
             notes: f.notes.clone(),
             tags: f.tags.join(", "),
@@ -558,7 +639,7 @@ impl FormulationForm {
                 .iter()
                 .map(|c| ComponentRow {
                     material_id: c.material_id.to_string(),
-                    concentration: c.concentration.to_string(),
+                    concentration: number_text(c.concentration),
                     unit: c.unit.code().into(),
                 })
                 .collect(),
@@ -568,7 +649,7 @@ impl FormulationForm {
 
     pub fn parse(&self) -> Result<FormulationDraft, FieldErrors> {
         let mut e = FieldErrors::default();
-        let code = required_text(&mut e, "code", &self.code, 40);
+        let code = required_text(&mut e, "code", &self.code, limits::CODE_CHARS);
         if !code.is_empty()
             && !code
                 .chars()
@@ -579,8 +660,8 @@ impl FormulationForm {
                 "may use only letters, digits and - _ . / (no spaces)",
             );
         }
-        let name = required_text(&mut e, "name", &self.name, 200);
-        let project = optional_text(&mut e, "project", &self.project, 120);
+        let name = required_text(&mut e, "name", &self.name, limits::LONG_NAME_CHARS);
+        let project = optional_text(&mut e, "project", &self.project, limits::NAME_CHARS);
         let status = if self.status.trim().is_empty() {
             Some(FormulationStatus::Draft)
         } else {
@@ -597,15 +678,24 @@ impl FormulationForm {
         let fill = optional_number(&mut e, "fill_volume_ml", &self.fill_volume_ml);
         check_positive(&mut e, "fill_volume_ml", fill, 500.0, "mL");
         let container_id = optional_id(&mut e, "container_id", &self.container_id);
-        let notes = optional_text(&mut e, "notes", &self.notes, 8000);
+        let notes = notes_text(&mut e, "notes", &self.notes);
         let tags: Vec<String> = self
             .tags
             .split(',')
             .map(|t| t.trim().to_string())
             .filter(|t| !t.is_empty())
             .collect();
-        if tags.iter().any(|t| t.chars().count() > 40) {
-            e.add("tags", "each tag must be at most 40 characters");
+        for tag in &tags {
+            check_tag(&mut e, tag);
+        }
+        let filled = self.components.iter().filter(|r| !r.is_blank()).count();
+        if filled > MAX_COMPONENTS {
+            e.add(
+                "components",
+                format!(
+                    "a formulation has at most {MAX_COMPONENTS} components; this one has {filled}"
+                ),
+            );
         }
         let mut components = Vec::new();
         for (i, row) in self.components.iter().enumerate() {
@@ -782,10 +872,10 @@ pub struct MeasurementForm {
 
 impl MeasurementForm {
     pub fn from_measurement(m: &Measurement) -> Self {
-        let opt = |v: Option<f64>| v.map(|v| v.to_string()).unwrap_or_default();
+        let opt = |v: Option<f64>| v.map(number_text).unwrap_or_default();
         MeasurementForm {
             kind: m.kind.code().into(),
-            value_c: m.value_c.to_string(),
+            value_c: number_text(m.value_c),
             residual_moisture_pct: opt(m.residual_moisture_pct),
             method: m.method.code().into(),
             heating_rate_c_min: opt(m.heating_rate_c_min),
@@ -851,9 +941,9 @@ impl MeasurementForm {
         check_positive(&mut e, "heating_rate_c_min", rate, 100.0, "°C/min");
         let mass = optional_number(&mut e, "sample_mass_mg", &self.sample_mass_mg);
         check_positive(&mut e, "sample_mass_mg", mass, 5000.0, "mg");
-        let pan = optional_text(&mut e, "pan", &self.pan, 120);
-        let instrument = optional_text(&mut e, "instrument", &self.instrument, 120);
-        let analyst = required_text(&mut e, "analyst", &self.analyst, 120);
+        let pan = optional_text(&mut e, "pan", &self.pan, limits::NAME_CHARS);
+        let instrument = optional_text(&mut e, "instrument", &self.instrument, limits::NAME_CHARS);
+        let analyst = required_text(&mut e, "analyst", &self.analyst, limits::NAME_CHARS);
         let date = parse_date(&mut e, "measured_on", &self.measured_on);
         if let Some(d) = date {
             if d > today {
@@ -871,7 +961,7 @@ impl MeasurementForm {
                 }
             }
         };
-        let notes = optional_text(&mut e, "notes", &self.notes, 8000);
+        let notes = notes_text(&mut e, "notes", &self.notes);
         let review_state = if self.review_state.trim().is_empty() {
             Some(ReviewState::Recorded)
         } else {

@@ -51,7 +51,9 @@ pub struct AuditEvent {
 
 impl AuditEvent {
     pub fn action_label(&self) -> &'static str {
-        Action::parse(&self.action).map(Action::label).unwrap_or("Unknown")
+        Action::parse(&self.action)
+            .map(Action::label)
+            .unwrap_or("Unknown")
     }
 
     pub fn changed_fields(&self) -> Vec<String> {
@@ -192,7 +194,8 @@ pub struct AuditFilter {
     pub to: Option<time::Date>,
 }
 
-const SELECT_EVENT: &str = "SELECT id, seq, at, user_id, username, action, entity, entity_id, version, before_json, \
+const SELECT_EVENT: &str =
+    "SELECT id, seq, at, user_id, username, action, entity, entity_id, version, before_json, \
      after_json, reason, prev_hash, hash FROM audit_events";
 
 const WHERE_AUDIT: &str = "WHERE ($1 = '' OR entity = $1) AND ($2 = 0 OR entity_id = $2) \
@@ -266,7 +269,9 @@ impl Store {
             .into_iter()
             .rev()
             .find(|e| e.version == Some(version) && e.after_json.is_some())
-            .ok_or_else(|| AppError::NotFound(format!("Version {version} of {} {id}", entity.label())))
+            .ok_or_else(|| {
+                AppError::NotFound(format!("Version {version} of {} {id}", entity.label()))
+            })
     }
 
     /// The ids of everyone who wrote a version of the record (its authors).

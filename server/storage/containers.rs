@@ -69,9 +69,15 @@ impl Store {
         to_container(row.ok_or_else(|| AppError::NotFound(format!("Container {id}")))?)
     }
 
-    pub async fn create_container(&self, actor: &Actor, d: &ContainerDraft) -> Result<i64, AppError> {
+    pub async fn create_container(
+        &self,
+        actor: &Actor,
+        d: &ContainerDraft,
+    ) -> Result<i64, AppError> {
         let at = now();
-        let mut w = self.begin_write(actor, Target::create(Entity::Container), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::Container), "")
+            .await?;
         let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO containers (name, kind, nominal_ml, inner_area_cm2, outer_area_cm2, kc_cal_s_cm2_k, \
@@ -107,7 +113,11 @@ impl Store {
         d: &ContainerDraft,
     ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Container, id, Some(version)), "")
+            .begin_write(
+                actor,
+                Target::update(Entity::Container, id, Some(version)),
+                "",
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query(

@@ -181,7 +181,9 @@ impl Store {
             "INSERT INTO cycles ({COLUMNS}, version, created_at, updated_at) VALUES \
              ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19, 1, $20, $20) RETURNING id"
         );
-        let mut w = self.begin_write(actor, Target::create(Entity::Cycle), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::Cycle), "")
+            .await?;
         let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = bind_cycle!(sqlx::query_as(&sql), d, CycleStatus::Candidate.code())
                 .bind(at)
@@ -227,13 +229,20 @@ impl Store {
     }
 
     /// Archives or restores a cycle; nothing is deleted.
-    pub async fn set_cycle_status(&self, actor: &Actor, id: i64, status: CycleStatus) -> Result<(), AppError> {
+    pub async fn set_cycle_status(
+        &self,
+        actor: &Actor,
+        id: i64,
+        status: CycleStatus,
+    ) -> Result<(), AppError> {
         let action = if status == CycleStatus::Archived {
             Action::Archive
         } else {
             Action::Restore
         };
-        let mut w = self.begin_write(actor, Target::with(Entity::Cycle, id, action), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::with(Entity::Cycle, id, action), "")
+            .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query("UPDATE cycles SET status = $1 WHERE id = $2")
                 .bind(status.code())
@@ -283,7 +292,12 @@ impl Store {
     }
 
     /// Links a formulation to a cycle: a change of the cycle, in its history.
-    pub async fn create_link(&self, actor: &Actor, cycle_id: i64, d: &LinkDraft) -> Result<i64, AppError> {
+    pub async fn create_link(
+        &self,
+        actor: &Actor,
+        cycle_id: i64,
+        d: &LinkDraft,
+    ) -> Result<i64, AppError> {
         // Name the field that is wrong rather than failing on the foreign key.
         self.get_cycle(cycle_id).await?;
         if let Err(AppError::NotFound(_)) = self.get_formulation(d.formulation_id).await {
@@ -317,7 +331,12 @@ impl Store {
 
     /// Unlinks a formulation from a cycle (the link holds no data of its own; the cycle's
     /// history keeps it).
-    pub async fn delete_link(&self, actor: &Actor, cycle_id: i64, link_id: i64) -> Result<(), AppError> {
+    pub async fn delete_link(
+        &self,
+        actor: &Actor,
+        cycle_id: i64,
+        link_id: i64,
+    ) -> Result<(), AppError> {
         let mut w = self
             .begin_write(actor, Target::update(Entity::Cycle, cycle_id, None), "")
             .await?;
@@ -373,7 +392,11 @@ impl Store {
     ) -> Result<(), AppError> {
         let at = now();
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Formulation, formulation_id, None), "")
+            .begin_write(
+                actor,
+                Target::update(Entity::Formulation, formulation_id, None),
+                "",
+            )
             .await?;
         let current: Option<i64> = w
             .before()

@@ -138,7 +138,9 @@ impl Store {
                             },
                         )
                         .await?;
-                    report.new_users.push((username.to_string(), role, password));
+                    report
+                        .new_users
+                        .push((username.to_string(), role, password));
                     self.get_user(id).await?
                 }
             };
@@ -327,12 +329,15 @@ impl Store {
             glasspoint_science::verdict::validate_cycle(&program)
                 .map_err(|e| bad_demo(format!("cycle {}: {e}", c.name)))?;
             let id = self
-                .create_cycle(&scientist, &CycleDraft {
-                    name: c.name.clone(),
-                    notes: c.notes,
-                    program,
-                    sublimation_ceiling_kg_h_m2: c.sublimation_ceiling_kg_h_m2,
-                })
+                .create_cycle(
+                    &scientist,
+                    &CycleDraft {
+                        name: c.name.clone(),
+                        notes: c.notes,
+                        program,
+                        sublimation_ceiling_kg_h_m2: c.sublimation_ceiling_kg_h_m2,
+                    },
+                )
                 .await?;
             report.cycles += 1;
             for l in c.links {

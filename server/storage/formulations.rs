@@ -397,10 +397,16 @@ impl Store {
         Ok(row.map(|r| r.0))
     }
 
-    pub async fn create_formulation(&self, actor: &Actor, d: &FormulationDraft) -> Result<i64, AppError> {
+    pub async fn create_formulation(
+        &self,
+        actor: &Actor,
+        d: &FormulationDraft,
+    ) -> Result<i64, AppError> {
         refuse_approved_by_form(d.status, None)?;
         let at = now();
-        let mut w = self.begin_write(actor, Target::create(Entity::Formulation), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::Formulation), "")
+            .await?;
         let id = on_tx!(&mut w.tx, c => {
             check_references!(c, d);
             let (id,): (i64,) = sqlx::query_as(
@@ -439,7 +445,11 @@ impl Store {
         reason: &str,
     ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Formulation, id, Some(version)), reason)
+            .begin_write(
+                actor,
+                Target::update(Entity::Formulation, id, Some(version)),
+                reason,
+            )
             .await?;
         let current = w
             .before()
@@ -478,14 +488,23 @@ impl Store {
     }
 
     /// Chooses which limit the formulation's cycle checks use (see `limit_basis`).
-    pub async fn set_limit_basis(&self, actor: &Actor, id: i64, crystalline: bool) -> Result<(), AppError> {
+    pub async fn set_limit_basis(
+        &self,
+        actor: &Actor,
+        id: i64,
+        crystalline: bool,
+    ) -> Result<(), AppError> {
         let basis = if crystalline {
             "crystalline"
         } else {
             "amorphous"
         };
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Formulation, id, None), "choice of the limit's basis")
+            .begin_write(
+                actor,
+                Target::update(Entity::Formulation, id, None),
+                "choice of the limit's basis",
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query("UPDATE formulations SET limit_basis = $1 WHERE id = $2")
@@ -511,7 +530,9 @@ impl Store {
         } else {
             Action::Restore
         };
-        let mut w = self.begin_write(actor, Target::with(Entity::Formulation, id, action), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::with(Entity::Formulation, id, action), "")
+            .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query("UPDATE formulations SET status = $1 WHERE id = $2")
                 .bind(status.code())

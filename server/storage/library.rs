@@ -103,19 +103,22 @@ pub(super) async fn install_if_missing(store: &Store) -> Result<(), AppError> {
             continue;
         }
         store
-            .create_container(&installer, &ContainerDraft {
-                name: v.name,
-                kind: v.kind,
-                nominal_ml: v.nominal_ml,
-                inner_area_cm2: v.inner_area_cm2,
-                outer_area_cm2: v.outer_area_cm2,
-                kc_cal_s_cm2_k: v.kc_cal_s_cm2_k,
-                kp_cal_s_cm2_k_torr: v.kp_cal_s_cm2_k_torr,
-                kd_per_torr: v.kd_per_torr,
-                kv_source: v.kv_source,
-                typical_values: true,
-                notes: v.notes,
-            })
+            .create_container(
+                &installer,
+                &ContainerDraft {
+                    name: v.name,
+                    kind: v.kind,
+                    nominal_ml: v.nominal_ml,
+                    inner_area_cm2: v.inner_area_cm2,
+                    outer_area_cm2: v.outer_area_cm2,
+                    kc_cal_s_cm2_k: v.kc_cal_s_cm2_k,
+                    kp_cal_s_cm2_k_torr: v.kp_cal_s_cm2_k_torr,
+                    kd_per_torr: v.kd_per_torr,
+                    kv_source: v.kv_source,
+                    typical_values: true,
+                    notes: v.notes,
+                },
+            )
             .await?;
     }
     on_pool!(store, pool => {

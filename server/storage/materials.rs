@@ -141,7 +141,11 @@ impl Store {
         to_material(row, props)
     }
 
-    pub async fn create_material(&self, actor: &Actor, draft: &MaterialDraft) -> Result<i64, AppError> {
+    pub async fn create_material(
+        &self,
+        actor: &Actor,
+        draft: &MaterialDraft,
+    ) -> Result<i64, AppError> {
         self.insert_material(actor, draft, false).await
     }
 
@@ -152,7 +156,9 @@ impl Store {
         from_library: bool,
     ) -> Result<i64, AppError> {
         let at = now();
-        let mut w = self.begin_write(actor, Target::create(Entity::Material), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::Material), "")
+            .await?;
         let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO materials (name, role, freezing_behaviour, notes, from_library, version, created_at, updated_at) \
@@ -185,7 +191,11 @@ impl Store {
         draft: &MaterialDraft,
     ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Material, id, Some(version)), "")
+            .begin_write(
+                actor,
+                Target::update(Entity::Material, id, Some(version)),
+                "",
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query(
@@ -220,7 +230,11 @@ impl Store {
         property: &PropertyDraft,
     ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Material, material_id, None), "")
+            .begin_write(
+                actor,
+                Target::update(Entity::Material, material_id, None),
+                "",
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query("DELETE FROM material_properties WHERE material_id = $1 AND kind = $2")

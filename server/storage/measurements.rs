@@ -133,7 +133,9 @@ impl Store {
         d: &MeasurementDraft,
     ) -> Result<i64, AppError> {
         let at = now();
-        let mut w = self.begin_write(actor, Target::create(Entity::Measurement), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::Measurement), "")
+            .await?;
         let id = on_tx!(&mut w.tx, c => {
             let (n,): (i64,) = sqlx::query_as("SELECT COUNT(*) FROM formulations WHERE id = $1")
                 .bind(formulation_id)
@@ -180,7 +182,11 @@ impl Store {
         reason: &str,
     ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Measurement, id, Some(version)), reason)
+            .begin_write(
+                actor,
+                Target::update(Entity::Measurement, id, Some(version)),
+                reason,
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query(

@@ -2,6 +2,7 @@
 //! SQLite and PostgreSQL), run on whichever pool the URL chose.
 
 pub mod audit;
+pub mod backup;
 mod containers;
 mod cycles;
 pub mod demo;

@@ -96,10 +96,16 @@ impl Store {
     pub async fn sign(&self, actor: &Actor, req: &SignRequest<'_>) -> Result<i64, AppError> {
         actor.require(Role::Reviewer)?;
         if !req.entity.signable() {
-            return Err(AppError::input("entity", "only formulations and measurements are signed"));
+            return Err(AppError::input(
+                "entity",
+                "only formulations and measurements are signed",
+            ));
         }
         if req.meaning == SignatureMeaning::Approved && req.entity != Entity::Formulation {
-            return Err(AppError::input("meaning", "only formulations are approved; results are reviewed"));
+            return Err(AppError::input(
+                "meaning",
+                "only formulations are approved; results are reviewed",
+            ));
         }
         let reason = req.reason.trim();
         if req.meaning == SignatureMeaning::Rejected && reason.is_empty() {

@@ -162,7 +162,9 @@ impl Store {
         check_username(u.username)?;
         check_full_name(u.full_name)?;
         let at = now();
-        let mut w = self.begin_write(actor, Target::create(Entity::User), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::User), "")
+            .await?;
         let id: i64 = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO users (username, full_name, role, password_hash, disabled, version, created_at, updated_at) \
@@ -192,7 +194,9 @@ impl Store {
         role: Role,
     ) -> Result<(), AppError> {
         check_full_name(full_name)?;
-        let mut w = self.begin_write(actor, Target::update(Entity::User, id, version), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::update(Entity::User, id, version), "")
+            .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query("UPDATE users SET full_name = $1, role = $2 WHERE id = $3")
                 .bind(full_name.trim())
@@ -205,9 +209,18 @@ impl Store {
         Ok(())
     }
 
-    pub async fn set_password(&self, actor: &Actor, id: i64, password_hash: &str) -> Result<(), AppError> {
+    pub async fn set_password(
+        &self,
+        actor: &Actor,
+        id: i64,
+        password_hash: &str,
+    ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::with(Entity::User, id, Action::PasswordChange), "")
+            .begin_write(
+                actor,
+                Target::with(Entity::User, id, Action::PasswordChange),
+                "",
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query("UPDATE users SET password_hash = $1 WHERE id = $2")
@@ -223,9 +236,20 @@ impl Store {
     }
 
     /// Disables (or re-enables) an account; disabling ends its sessions and tokens.
-    pub async fn set_disabled(&self, actor: &Actor, id: i64, disabled: bool) -> Result<(), AppError> {
-        let action = if disabled { Action::Disable } else { Action::Enable };
-        let mut w = self.begin_write(actor, Target::with(Entity::User, id, action), "").await?;
+    pub async fn set_disabled(
+        &self,
+        actor: &Actor,
+        id: i64,
+        disabled: bool,
+    ) -> Result<(), AppError> {
+        let action = if disabled {
+            Action::Disable
+        } else {
+            Action::Enable
+        };
+        let mut w = self
+            .begin_write(actor, Target::with(Entity::User, id, action), "")
+            .await?;
         let at = now();
         on_tx!(&mut w.tx, c => {
             sqlx::query("UPDATE users SET disabled = $1 WHERE id = $2")
@@ -279,7 +303,8 @@ impl Store {
             .await?;
             id
         });
-        let after = serde_json::json!({"token_id": id, "name": name, "scope": scope.code()}).to_string();
+        let after =
+            serde_json::json!({"token_id": id, "name": name, "scope": scope.code()}).to_string();
         append_event(
             &mut tx,
             NewEvent {
@@ -317,7 +342,8 @@ impl Store {
                 .execute(&mut **c)
                 .await?;
         });
-        let before = serde_json::json!({"token_id": token_id, "name": name, "scope": scope}).to_string();
+        let before =
+            serde_json::json!({"token_id": token_id, "name": name, "scope": scope}).to_string();
         append_event(
             &mut tx,
             NewEvent {

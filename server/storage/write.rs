@@ -69,15 +69,15 @@ impl Store {
     ) -> Result<Write, AppError> {
         actor.may_write()?;
         let mut tx = self.begin_locked().await?;
-        let before = match target.id {
-            Some(id) => Some(
-                snapshot(&mut tx, target.entity, id)
-                    .await?
-                    .ok_or_else(|| AppError::NotFound(format!("{} {id}", target.entity.label())))?,
-            ),
-            None => None,
-        };
-        if let (Some(before), Some(expected), Some(id)) = (&before, target.expected_version, target.id)
+        let before =
+            match target.id {
+                Some(id) => Some(snapshot(&mut tx, target.entity, id).await?.ok_or_else(|| {
+                    AppError::NotFound(format!("{} {id}", target.entity.label()))
+                })?),
+                None => None,
+            };
+        if let (Some(before), Some(expected), Some(id)) =
+            (&before, target.expected_version, target.id)
         {
             if before.version != expected {
                 let message = stale_message(&mut tx, target.entity, id, expected).await?;
@@ -168,7 +168,9 @@ impl Write {
         let table = self.entity.table();
         if let (Some(before), Action::Update) = (&self.before, self.action) {
             let Some(changed) = snapshot(&mut self.tx, self.entity, id).await? else {
-                return Err(AppError::Internal("the record vanished in its own write".into()));
+                return Err(AppError::Internal(
+                    "the record vanished in its own write".into(),
+                ));
             };
             if before.same_content(&changed) {
                 return Ok(before.version);
@@ -181,7 +183,9 @@ impl Write {
             {
                 return Err(AppError::input(
                     "reason",
-                    format!("this record is {meaning}: a change makes a new version and needs a reason"),
+                    format!(
+                        "this record is {meaning}: a change makes a new version and needs a reason"
+                    ),
                 ));
             }
             // A signature applies to the content signed: changed content needs a new one.
@@ -194,14 +198,20 @@ impl Write {
             }
         }
         if self.action.bumps_version() {
-            let sql = format!("UPDATE {table} SET version = version + 1, updated_at = $1 WHERE id = $2");
+            let sql =
+                format!("UPDATE {table} SET version = version + 1, updated_at = $1 WHERE id = $2");
             on_tx!(&mut self.tx, c => {
                 sqlx::query(&sql).bind(at).bind(id).execute(&mut **c).await?;
             });
         }
         let after = snapshot(&mut self.tx, self.entity, id)
             .await?
-            .ok_or_else(|| AppError::Internal(format!("{} {id} vanished in its own write", self.entity.label())))?;
+            .ok_or_else(|| {
+                AppError::Internal(format!(
+                    "{} {id} vanished in its own write",
+                    self.entity.label()
+                ))
+            })?;
         let version = after.version;
         append_event(
             &mut self.tx,
@@ -281,7 +291,11 @@ pub fn signed_content_hash(content: &Map<String, Value>) -> String {
 /// Columns never copied into the audit trail.
 const SKIPPED: &[&str] = &["created_at", "updated_at", "password_hash"];
 
-pub(crate) async fn snapshot(tx: &mut Tx, entity: Entity, id: i64) -> Result<Option<Snapshot>, AppError> {
+pub(crate) async fn snapshot(
+    tx: &mut Tx,
+    entity: Entity,
+    id: i64,
+) -> Result<Option<Snapshot>, AppError> {
     let sql = format!("SELECT * FROM {} WHERE id = $1", entity.table());
     let row = on_tx!(tx, c => {
         match sqlx::query(&sql).bind(id).fetch_optional(&mut **c).await? {
@@ -329,12 +343,17 @@ trait AnyRow {
 }
 
 fn number(v: f64) -> Value {
-    serde_json::Number::from_f64(v).map(Value::Number).unwrap_or(Value::Null)
+    serde_json::Number::from_f64(v)
+        .map(Value::Number)
+        .unwrap_or(Value::Null)
 }
 
 impl AnyRow for sqlx::sqlite::SqliteRow {
     fn column_names(&self) -> Vec<String> {
-        self.columns().iter().map(|c| c.name().to_string()).collect()
+        self.columns()
+            .iter()
+            .map(|c| c.name().to_string())
+            .collect()
     }
 
     fn value(&self, i: usize) -> Result<Value, AppError> {
@@ -356,7 +375,10 @@ impl AnyRow for sqlx::sqlite::SqliteRow {
 
 impl AnyRow for sqlx::postgres::PgRow {
     fn column_names(&self) -> Vec<String> {
-        self.columns().iter().map(|c| c.name().to_string()).collect()
+        self.columns()
+            .iter()
+            .map(|c| c.name().to_string())
+            .collect()
     }
 
     fn value(&self, i: usize) -> Result<Value, AppError> {
@@ -371,15 +393,24 @@ impl AnyRow for sqlx::postgres::PgRow {
             "FLOAT8" => number(self.try_get::<f64, _>(i)?),
             "FLOAT4" => number(f64::from(self.try_get::<f32, _>(i)?)),
             "BOOL" => Value::Bool(self.try_get::<bool, _>(i)?),
-            "DATE" => Value::String(crate::domain::fields::format_date(self.try_get::<time::Date, _>(i)?)),
-            "TIMESTAMPTZ" => Value::String(super::audit::format_time(self.try_get::<time::OffsetDateTime, _>(i)?)),
+            "DATE" => Value::String(crate::domain::fields::format_date(
+                self.try_get::<time::Date, _>(i)?,
+            )),
+            "TIMESTAMPTZ" => Value::String(super::audit::format_time(
+                self.try_get::<time::OffsetDateTime, _>(i)?,
+            )),
             _ => Value::String(self.try_get::<String, _>(i)?),
         })
     }
 }
 
 /// The newest reviewed or approved signature of the record's current content, if any.
-async fn locking_signature(tx: &mut Tx, entity: Entity, id: i64, content_hash: &str) -> Result<Option<String>, AppError> {
+async fn locking_signature(
+    tx: &mut Tx,
+    entity: Entity,
+    id: i64,
+    content_hash: &str,
+) -> Result<Option<String>, AppError> {
     let row: Option<(String,)> = on_tx!(tx, c => {
         sqlx::query_as(
             "SELECT meaning FROM signatures WHERE entity = $1 AND entity_id = $2 AND content_hash = $3 \
@@ -394,9 +425,17 @@ async fn locking_signature(tx: &mut Tx, entity: Entity, id: i64, content_hash: &
     Ok(row.map(|r| r.0))
 }
 
+/// Who changed the record, when, its content before and after, and the new version.
+type LaterEvent = (String, String, Option<String>, Option<String>, Option<i64>);
+
 /// Says what changed since `expected` and by whom, from the audit trail.
-async fn stale_message(tx: &mut Tx, entity: Entity, id: i64, expected: i64) -> Result<String, AppError> {
-    let rows: Vec<(String, String, Option<String>, Option<String>, Option<i64>)> = on_tx!(tx, c => {
+async fn stale_message(
+    tx: &mut Tx,
+    entity: Entity,
+    id: i64,
+    expected: i64,
+) -> Result<String, AppError> {
+    let rows: Vec<LaterEvent> = on_tx!(tx, c => {
         sqlx::query_as(
             "SELECT e.username, e.at, e.before_json, e.after_json, e.version FROM audit_events e \
              WHERE e.entity = $1 AND e.entity_id = $2 AND e.version > $3 ORDER BY e.seq",

@@ -132,7 +132,15 @@ async fn create_user(
     match result {
         Ok(_) => Ok(see_other("/admin/users")),
         Err(AppError::Input(e)) => {
-            users_page(&state, form, e.into(), None, String::new(), StatusCode::UNPROCESSABLE_ENTITY).await
+            users_page(
+                &state,
+                form,
+                e.into(),
+                None,
+                String::new(),
+                StatusCode::UNPROCESSABLE_ENTITY,
+            )
+            .await
         }
         Err(other) => Err(other),
     }
@@ -161,7 +169,10 @@ async fn update_user(
         match form.account.as_str() {
             "disable" => {
                 if actor.user_id == Some(id) {
-                    return Err(AppError::input("account", "you cannot disable your own account"));
+                    return Err(AppError::input(
+                        "account",
+                        "you cannot disable your own account",
+                    ));
                 }
                 state.store.set_disabled(&actor, id, true).await
             }
@@ -171,10 +182,16 @@ async fn update_user(
                     AppError::input("role", format!("must be one of: {}", Role::codes()))
                 })?;
                 if actor.user_id == Some(id) && role != Role::Admin {
-                    return Err(AppError::input("role", "you cannot take the administrator role from yourself"));
+                    return Err(AppError::input(
+                        "role",
+                        "you cannot take the administrator role from yourself",
+                    ));
                 }
                 let version = form.version.trim().parse().ok();
-                state.store.update_user(&actor, id, version, &form.full_name, role).await
+                state
+                    .store
+                    .update_user(&actor, id, version, &form.full_name, role)
+                    .await
             }
         }
     }
@@ -183,10 +200,26 @@ async fn update_user(
         Ok(()) => Ok(see_other("/admin/users")),
         Err(AppError::Input(e)) => {
             let notice = format!("Account {id} was not changed: {}: {}", e.field, e.message);
-            users_page(&state, NewUserForm::default(), FieldErrors::default(), None, notice, StatusCode::UNPROCESSABLE_ENTITY).await
+            users_page(
+                &state,
+                NewUserForm::default(),
+                FieldErrors::default(),
+                None,
+                notice,
+                StatusCode::UNPROCESSABLE_ENTITY,
+            )
+            .await
         }
         Err(AppError::Conflict(message)) => {
-            users_page(&state, NewUserForm::default(), FieldErrors::default(), None, message, StatusCode::CONFLICT).await
+            users_page(
+                &state,
+                NewUserForm::default(),
+                FieldErrors::default(),
+                None,
+                message,
+                StatusCode::CONFLICT,
+            )
+            .await
         }
         Err(other) => Err(other),
     }
@@ -206,15 +239,37 @@ async fn reset_password(
 ) -> Result<Response, AppError> {
     let user = state.store.get_user(id).await?;
     if let Err(AppError::Input(e)) = check_new_password(&form.password) {
-        let notice = format!("The password of {} was not changed: {}", user.username, e.message);
-        return users_page(&state, NewUserForm::default(), FieldErrors::default(), None, notice, StatusCode::UNPROCESSABLE_ENTITY).await;
+        let notice = format!(
+            "The password of {} was not changed: {}",
+            user.username, e.message
+        );
+        return users_page(
+            &state,
+            NewUserForm::default(),
+            FieldErrors::default(),
+            None,
+            notice,
+            StatusCode::UNPROCESSABLE_ENTITY,
+        )
+        .await;
     }
     state
         .store
         .set_password(&actor, id, &hash_password(&form.password)?)
         .await?;
-    let notice = format!("The password of {} was changed; their sessions ended.", user.username);
-    users_page(&state, NewUserForm::default(), FieldErrors::default(), None, notice, StatusCode::OK).await
+    let notice = format!(
+        "The password of {} was changed; their sessions ended.",
+        user.username
+    );
+    users_page(
+        &state,
+        NewUserForm::default(),
+        FieldErrors::default(),
+        None,
+        notice,
+        StatusCode::OK,
+    )
+    .await
 }
 
 #[derive(Deserialize)]
@@ -233,16 +288,47 @@ async fn issue_token(
 ) -> Result<Response, AppError> {
     let user = state.store.get_user(id).await?;
     let Some(scope) = TokenScope::parse(&form.scope) else {
-        let notice = format!("No token issued: scope must be one of: {}", TokenScope::codes());
-        return users_page(&state, NewUserForm::default(), FieldErrors::default(), None, notice, StatusCode::UNPROCESSABLE_ENTITY).await;
+        let notice = format!(
+            "No token issued: scope must be one of: {}",
+            TokenScope::codes()
+        );
+        return users_page(
+            &state,
+            NewUserForm::default(),
+            FieldErrors::default(),
+            None,
+            notice,
+            StatusCode::UNPROCESSABLE_ENTITY,
+        )
+        .await;
     };
-    match state.store.create_token(&actor, id, scope, &form.name).await {
+    match state
+        .store
+        .create_token(&actor, id, scope, &form.name)
+        .await
+    {
         Ok(token) => {
-            users_page(&state, NewUserForm::default(), FieldErrors::default(), Some((user.username, token)), String::new(), StatusCode::OK).await
+            users_page(
+                &state,
+                NewUserForm::default(),
+                FieldErrors::default(),
+                Some((user.username, token)),
+                String::new(),
+                StatusCode::OK,
+            )
+            .await
         }
         Err(AppError::Input(e)) => {
             let notice = format!("No token issued: {}: {}", e.field, e.message);
-            users_page(&state, NewUserForm::default(), FieldErrors::default(), None, notice, StatusCode::UNPROCESSABLE_ENTITY).await
+            users_page(
+                &state,
+                NewUserForm::default(),
+                FieldErrors::default(),
+                None,
+                notice,
+                StatusCode::UNPROCESSABLE_ENTITY,
+            )
+            .await
         }
         Err(other) => Err(other),
     }
@@ -296,7 +382,10 @@ async fn save_settings(
         "" => Ok(None),
         raw => match raw.parse::<f64>() {
             Ok(m) if (0.0..=max).contains(&m) => Ok(Some(m)),
-            _ => Err(AppError::input("margin_c", format!("a number of °C from 0 to {max}, or empty for the server's default"))),
+            _ => Err(AppError::input(
+                "margin_c",
+                format!("a number of °C from 0 to {max}, or empty for the server's default"),
+            )),
         },
     };
     let version = form.version.trim().parse().unwrap_or(0);

@@ -12,6 +12,7 @@ use axum::http::{header, HeaderMap, Method, StatusCode};
 use axum::middleware::Next;
 use axum::response::{IntoResponse, Redirect, Response};
 
+use super::errors::is_api;
 use crate::auth::access::{rule_for, Access};
 use crate::auth::secrets::{same_secret, TOKEN_PREFIX};
 use crate::auth::Actor;
@@ -68,10 +69,6 @@ impl FirstRun {
         }
         Ok(any)
     }
-}
-
-fn is_api(path: &str) -> bool {
-    path.starts_with("/api/")
 }
 
 /// An error in the form the caller reads: JSON for the API, a page otherwise.
@@ -185,8 +182,21 @@ pub async fn authorize(State(state): State<AppState>, req: Request, next: Next) 
     let path = req.uri().path().to_string();
     let api = is_api(&path);
     let Some(access) = rule_for(method.as_str(), &matched) else {
+        let allowed = crate::auth::access::methods_for(&matched);
+        if !allowed.is_empty() {
+            // A method the route does not take: answered here, so no handler runs
+            // without its rule.
+            let mut r = StatusCode::METHOD_NOT_ALLOWED.into_response();
+            if let Ok(v) = allowed.join(", ").parse() {
+                r.headers_mut().insert(header::ALLOW, v);
+            }
+            return r;
+        }
         tracing::error!(%method, route = %matched, "route has no access rule: refused");
-        return refuse(api, AppError::Forbidden("this route has no access rule".into()));
+        return refuse(
+            api,
+            AppError::Forbidden("this route has no access rule".into()),
+        );
     };
     let first_run = state.first_run.clone();
     match first_run.has_users(&state).await {

@@ -2,12 +2,13 @@
 //! of the team's own data without saving anything (only the fitted k can be kept, on
 //! purpose, as an in-house material property).
 
+use super::extract::{Form, Query};
 use crate::auth::Actor;
 use askama::Template;
-use axum::extract::{Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use glasspoint_science::cake::{cake_moisture_limit, cake_tg_curve, CakeMoistureLimitInput};
 use glasspoint_science::fit::{
     fit_gordon_taylor, gordon_taylor_curve_c, FitPoint, GordonTaylorFit, GordonTaylorFitInput,
@@ -760,7 +761,9 @@ async fn save_fit(
     );
     state
         .store
-        .set_material_property(&actor, o.b.id,
+        .set_material_property(
+            &actor,
+            o.b.id,
             &PropertyDraft {
                 kind: PropertyKind::TgPrimeBlendK,
                 value: o.fit.k,

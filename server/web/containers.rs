@@ -1,11 +1,12 @@
 //! Container (vial) pages.
 
+use super::extract::{Form, Path};
 use crate::auth::Actor;
 use askama::Template;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::get;
-use axum::{Form, Router};
+use axum::Router;
 
 use super::{draft_and_version, options, render, saved_or_form};
 use crate::domain::*;
@@ -121,7 +122,10 @@ async fn update(
 ) -> Result<Response, AppError> {
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_container(&actor, id, version, &draft).await
+        state
+            .store
+            .update_container(&actor, id, version, &draft)
+            .await
     }
     .await;
     saved_or_form(

@@ -1,12 +1,13 @@
 //! Candidate cycles: create, edit, copy, archive; link formulations; verdicts, charts,
 //! design space and a suggested faster cycle for each link.
 
+use super::extract::{Form, Path, Query};
 use crate::auth::Actor;
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use glasspoint_science::design_space::{design_space, BoundaryState, CellState, DesignSpaceInput};
 use glasspoint_science::suggest::{suggest, SuggestInput};
 use glasspoint_science::verdict::{CheckState, CheckTopic, CycleVerdict};
@@ -164,6 +165,7 @@ struct FormPage {
     form: CycleForm,
     errors: FieldErrors,
     units: &'static [&'static str],
+    hold_units: &'static [&'static str],
 }
 
 fn form_page(
@@ -180,6 +182,7 @@ fn form_page(
         form,
         errors,
         units: PRESSURE_UNITS,
+        hold_units: HOLD_UNITS,
     })
 }
 
@@ -265,8 +268,11 @@ async fn free_name(state: &AppState, base: &str) -> Result<String, AppError> {
     Ok(candidate)
 }
 
-async fn copy(State(state): State<AppState>,
-    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn copy(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     let c = state.store.get_cycle(id).await?;
     let draft = CycleDraft {
         name: free_name(&state, &c.name).await?,
@@ -280,7 +286,9 @@ async fn copy(State(state): State<AppState>,
     for l in state.store.links_of_cycle(id).await? {
         state
             .store
-            .create_link(&actor, new_id,
+            .create_link(
+                &actor,
+                new_id,
                 &LinkDraft {
                     formulation_id: l.formulation_id,
                     container_id: l.container_id,
@@ -292,8 +300,11 @@ async fn copy(State(state): State<AppState>,
     Ok(see_other(&format!("/cycles/{new_id}/edit")))
 }
 
-async fn archive(State(state): State<AppState>,
-    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn archive(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     state
         .store
         .set_cycle_status(&actor, id, CycleStatus::Archived)
@@ -301,8 +312,11 @@ async fn archive(State(state): State<AppState>,
     Ok(see_other(&format!("/cycles/{id}")))
 }
 
-async fn restore(State(state): State<AppState>,
-    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn restore(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     state
         .store
         .set_cycle_status(&actor, id, CycleStatus::Candidate)
@@ -734,7 +748,9 @@ async fn adopt_suggestion(
     let new_id = state.store.create_cycle(&actor, &draft).await?;
     state
         .store
-        .create_link(&actor, new_id,
+        .create_link(
+            &actor,
+            new_id,
             &LinkDraft {
                 formulation_id: a.formulation.id,
                 container_id: a.container.id,

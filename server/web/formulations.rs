@@ -1,11 +1,12 @@
 //! Formulation pages: list with search and filters, detail, create, edit, archive.
 
+use super::extract::{Form, Path, Query};
 use crate::auth::Actor;
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use serde::Deserialize;
 
 use super::{draft_and_version, options, render, see_other};
@@ -168,6 +169,7 @@ struct FormPage {
     units: Vec<&'static str>,
     materials: Vec<(String, String)>,
     containers: Vec<(String, String)>,
+    max_components: usize,
 }
 
 async fn form_page(
@@ -200,7 +202,8 @@ async fn form_page(
         .enumerate()
         .map(|(i, r)| row_view(r, i, &errors))
         .collect();
-    let wanted = (rows.len() + 3).min(MAX_COMPONENTS);
+    // Every stored or typed row, plus blank rows to add more up to the limit.
+    let wanted = (rows.len() + 3).min(MAX_COMPONENTS).max(rows.len());
     while rows.len() < wanted {
         rows.push(row_view(&ComponentRow::default(), usize::MAX, &errors));
     }
@@ -220,6 +223,7 @@ async fn form_page(
         units: ConcentrationUnit::ALL.iter().map(|u| u.code()).collect(),
         materials,
         containers,
+        max_components: MAX_COMPONENTS,
     }))
 }
 
@@ -442,7 +446,10 @@ async fn update(
     let mut form = FormulationForm::from_pairs(&pairs);
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_formulation(&actor, id, version, &draft, &form.reason).await
+        state
+            .store
+            .update_formulation(&actor, id, version, &draft, &form.reason)
+            .await
     }
     .await;
     match result {
@@ -465,8 +472,11 @@ async fn update(
     }
 }
 
-async fn archive(State(state): State<AppState>,
-    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn archive(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     state
         .store
         .set_formulation_status(&actor, id, FormulationStatus::Archived)
@@ -474,8 +484,11 @@ async fn archive(State(state): State<AppState>,
     Ok(see_other(&format!("/formulations/{id}")))
 }
 
-async fn restore(State(state): State<AppState>,
-    actor: Actor, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn restore(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     state
         .store
         .set_formulation_status(&actor, id, FormulationStatus::Draft)
@@ -501,13 +514,7 @@ async fn resistance_form(
     let f = state.store.get_formulation(id).await?;
     let current = crate::derive::resistance_of(&state.store, &f).await?;
     let form = if current.measured {
-        ResistanceForm {
-            r0_cm2_torr_h_g: current.resistance.r0_cm2_torr_h_g.to_string(),
-            a1_cm_torr_h_g: current.resistance.a1_cm_torr_h_g.to_string(),
-            a2_per_cm: current.resistance.a2_per_cm.to_string(),
-            source: current.source.clone(),
-            version: current.version.to_string(),
-        }
+        ResistanceForm::from_resistance(&current)
     } else {
         ResistanceForm::default()
     };
@@ -528,7 +535,12 @@ async fn save_resistance(
     let f = state.store.get_formulation(id).await?;
     let version = form.version.trim().parse::<i64>().ok();
     let result = match form.parse() {
-        Ok((r, source)) => state.store.set_resistance(&actor, id, &r, &source, version).await,
+        Ok((r, source)) => {
+            state
+                .store
+                .set_resistance(&actor, id, &r, &source, version)
+                .await
+        }
         Err(e) => Err(AppError::Fields(e)),
     };
     match result {

@@ -1,11 +1,12 @@
 //! Materials library pages.
 
+use super::extract::{Form, Path};
 use crate::auth::Actor;
 use askama::Template;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::get;
-use axum::{Form, Router};
+use axum::Router;
 
 use super::{draft_and_version, options, render, saved_or_form};
 use crate::domain::*;
@@ -52,6 +53,7 @@ struct PropertyView {
     convention: String,
     citation: String,
     source_kind: String,
+    measurements: String,
     value_error: String,
     citation_error: String,
 }
@@ -89,11 +91,13 @@ fn form_page(
                 convention: p.convention,
                 citation: p.citation,
                 source_kind: p.source_kind,
+                measurements: p.measurements,
                 value_error: errors.msg(&format!("{code}_value")).to_string(),
                 citation_error: [
                     errors.msg(&format!("{code}_citation")),
                     errors.msg(&format!("{code}_convention")),
                     errors.msg(&format!("{code}_source")),
+                    errors.msg(&format!("{code}_measurements")),
                 ]
                 .iter()
                 .filter(|m| !m.is_empty())
@@ -174,7 +178,10 @@ async fn update(
     let form = MaterialForm::from_pairs(&pairs);
     let result = async {
         let (draft, version) = draft_and_version(form.parse(), &form.version)?;
-        state.store.update_material(&actor, id, version, &draft).await
+        state
+            .store
+            .update_material(&actor, id, version, &draft)
+            .await
     }
     .await;
     saved_or_form(

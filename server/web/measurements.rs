@@ -1,11 +1,12 @@
 //! Measurement pages: add and edit on a formulation, and the list across formulations.
 
+use super::extract::{Form, Path, Query};
 use crate::auth::Actor;
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use axum::routing::get;
-use axum::{Form, Router};
+use axum::Router;
 use serde::Deserialize;
 
 use super::formulations::{into_field_errors, unprocessable};
@@ -150,7 +151,10 @@ async fn update(
     let existing = state.store.get_measurement(id).await?;
     let result = async {
         let (draft, version) = draft_and_version(form.parse(today()), &form.version)?;
-        state.store.update_measurement(&actor, id, version, &draft, &form.reason).await
+        state
+            .store
+            .update_measurement(&actor, id, version, &draft, &form.reason)
+            .await
     }
     .await;
     match result {

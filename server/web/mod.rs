@@ -7,8 +7,11 @@ mod calculators;
 mod containers;
 mod cycles;
 mod derived_view;
+pub mod errors;
+pub mod extract;
 pub mod fmt;
 mod formulations;
+pub mod host;
 pub use formulations::ListQuery as FormulationListQuery;
 mod materials;
 mod measurements;
@@ -19,11 +22,12 @@ use std::time::Duration;
 
 use askama::Template;
 use axum::body::Body;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::{header, HeaderValue, StatusCode};
 use axum::response::{Html, IntoResponse, Redirect, Response};
 use axum::routing::get;
 use axum::Router;
+use extract::Path;
 use tower_http::catch_panic::CatchPanicLayer;
 use tower_http::csrf::CsrfLayer;
 use tower_http::limit::RequestBodyLimitLayer;
@@ -50,33 +54,51 @@ pub fn router() -> Router<AppState> {
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 
-/// Request limits, security headers, tracing and panic containment for the whole app.
+/// Request limits, the host check, cross-site refusal, one error shape, tracing, panic
+/// containment and security headers for the whole app. The last layer added is the
+/// outermost, so the security headers reach every response, errors included.
 pub fn middleware(app: Router, config: &Config) -> Router {
-    app.layer(RequestBodyLimitLayer::new(config.body_limit_bytes))
-        .layer(axum::extract::DefaultBodyLimit::max(config.body_limit_bytes))
+    let limit = config.body_limit_bytes;
+    app.layer(axum::extract::DefaultBodyLimit::max(limit))
+        .layer(RequestBodyLimitLayer::new(limit))
         .layer(TimeoutLayer::with_status_code(
             StatusCode::REQUEST_TIMEOUT,
             Duration::from_secs(config.request_timeout_s),
         ))
+        // Refuses unsafe requests sent from another site (by Sec-Fetch-Site, else Origin
+        // against Host); same-site pages and clients without those headers pass. Its
+        // empty 403 is given a body by `shape_errors`.
+        .layer(CsrfLayer::new())
+        .layer(axum::middleware::from_fn_with_state(
+            host::AllowedHosts::new(&config.allowed_hosts),
+            host::check_host,
+        ))
+        .layer(CatchPanicLayer::custom(|_| {
+            tracing::error!("a request handler panicked");
+            // An empty 500: `shape_errors` answers it as JSON or HTML by path.
+            StatusCode::INTERNAL_SERVER_ERROR.into_response()
+        }))
+        .layer(axum::middleware::from_fn_with_state(
+            limit,
+            errors::shape_errors,
+        ))
+        .layer(TraceLayer::new_for_http())
         .layer(SetResponseHeaderLayer::if_not_present(
             header::CONTENT_SECURITY_POLICY,
             HeaderValue::from_static("default-src 'self'; img-src 'self' data:; style-src 'self'; frame-ancestors 'none'"),
         ))
         .layer(SetResponseHeaderLayer::if_not_present(
+            header::X_FRAME_OPTIONS,
+            HeaderValue::from_static("DENY"),
+        ))
+        .layer(SetResponseHeaderLayer::if_not_present(
             header::X_CONTENT_TYPE_OPTIONS,
             HeaderValue::from_static("nosniff"),
         ))
-        // Refuses unsafe requests sent from another site (by Sec-Fetch-Site, else Origin
-        // against Host); same-site pages and clients without those headers pass.
-        .layer(CsrfLayer::new())
-        .layer(TraceLayer::new_for_http())
-        .layer(CatchPanicLayer::custom(|_| {
-            tracing::error!("a request handler panicked");
-            error_page(
-                StatusCode::INTERNAL_SERVER_ERROR,
-                "Something went wrong on our side. The details were logged.",
-            )
-        }))
+        .layer(SetResponseHeaderLayer::if_not_present(
+            header::REFERRER_POLICY,
+            HeaderValue::from_static("same-origin"),
+        ))
 }
 
 async fn healthz(State(state): State<AppState>) -> Response {
@@ -124,6 +146,10 @@ pub fn error_page(status: StatusCode, message: &str) -> Response {
         StatusCode::UNPROCESSABLE_ENTITY => "That input was not accepted",
         StatusCode::CONFLICT => "Changed in the meantime",
         StatusCode::PAYLOAD_TOO_LARGE => "Too large",
+        StatusCode::BAD_REQUEST => "That request was not understood",
+        StatusCode::FORBIDDEN => "Refused",
+        StatusCode::MISDIRECTED_REQUEST => "Not served under this name",
+        StatusCode::METHOD_NOT_ALLOWED => "Not possible here",
         _ => "Something went wrong",
     };
     let body = ErrorPage { heading, message }

@@ -148,7 +148,10 @@ async fn sign_in(
             state.store.end_session(&old, &s.actor).await?;
         }
     }
-    let cookie = state.store.create_session(&user.actor(true), &address).await?;
+    let cookie = state
+        .store
+        .create_session(&user.actor(true), &address)
+        .await?;
     let mut response = see_other(&next);
     response.headers_mut().insert(
         header::SET_COOKIE,

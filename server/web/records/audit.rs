@@ -50,7 +50,10 @@ pub fn audit_filter(q: &AuditQuery) -> Result<AuditFilter, AppError> {
     };
     let entity_id = match q.id.trim() {
         "" => None,
-        raw => Some(raw.parse::<i64>().map_err(|_| AppError::input("id", "must be a whole number"))?),
+        raw => Some(
+            raw.parse::<i64>()
+                .map_err(|_| AppError::input("id", "must be a whole number"))?,
+        ),
     };
     let action = match q.action.trim() {
         "" => None,
@@ -144,7 +147,12 @@ pub async fn csv(
             e.after_json.clone().unwrap_or_default(),
             e.hash.clone(),
         ];
-        out.push_str(&row.iter().map(|f| csv_field(f)).collect::<Vec<_>>().join(","));
+        out.push_str(
+            &row.iter()
+                .map(|f| csv_field(f))
+                .collect::<Vec<_>>()
+                .join(","),
+        );
         out.push('\n');
     }
     Ok((

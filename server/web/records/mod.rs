@@ -33,9 +33,7 @@ pub fn router() -> Router<AppState> {
 
 /// The record kind named in a path, refused clearly when unknown.
 fn entity(code: &str) -> Result<Entity, AppError> {
-    Entity::parse(code).ok_or_else(|| {
-        AppError::NotFound(format!("A record kind called '{code}'"))
-    })
+    Entity::parse(code).ok_or_else(|| AppError::NotFound(format!("A record kind called '{code}'")))
 }
 
 /// Account and settings histories show sign-ins and roles: reviewers and administrators
@@ -59,7 +57,9 @@ pub fn flatten(json: Option<&str>) -> Vec<(String, String)> {
     let mut out = Vec::new();
     for (key, v) in map {
         match v {
-            serde_json::Value::Array(rows) if rows.is_empty() => out.push((key.clone(), "—".into())),
+            serde_json::Value::Array(rows) if rows.is_empty() => {
+                out.push((key.clone(), "—".into()))
+            }
             serde_json::Value::Array(rows) => {
                 for (i, row) in rows.iter().enumerate() {
                     out.push((format!("{key} {}", i + 1), scalar(row)));

@@ -58,7 +58,11 @@ pub async fn queue(State(state): State<AppState>, actor: Actor) -> Result<Respon
             id: m.id,
             title: describe(&m, code),
             detail: m.analyst.clone(),
-            own: state.store.authors_of(Entity::Measurement, m.id).await?.contains(&me),
+            own: state
+                .store
+                .authors_of(Entity::Measurement, m.id)
+                .await?
+                .contains(&me),
         });
     }
     let mut formulations = Vec::new();
@@ -76,7 +80,11 @@ pub async fn queue(State(state): State<AppState>, actor: Actor) -> Result<Respon
             id: f.id,
             title: format!("{}: {}", f.code, f.name),
             detail: f.composition,
-            own: state.store.authors_of(Entity::Formulation, f.id).await?.contains(&me),
+            own: state
+                .store
+                .authors_of(Entity::Formulation, f.id)
+                .await?
+                .contains(&me),
         });
     }
     Ok(render(ReviewPage {

@@ -57,7 +57,10 @@ async fn sign_page(
     status: axum::http::StatusCode,
 ) -> Result<Response, AppError> {
     if !entity.signable() {
-        return Err(AppError::NotFound(format!("Signing of a {}", entity.label().to_lowercase())));
+        return Err(AppError::NotFound(format!(
+            "Signing of a {}",
+            entity.label().to_lowercase()
+        )));
     }
     let history = state.store.history(entity, id).await?;
     let current = history
@@ -114,14 +117,11 @@ pub async fn sign(
 ) -> Result<Response, AppError> {
     let entity = entity(&kind)?;
     let result = async {
-        let meaning = SignatureMeaning::parse(&form.meaning).ok_or_else(|| {
-            AppError::input("meaning", "choose what your signature means")
+        let meaning = SignatureMeaning::parse(&form.meaning)
+            .ok_or_else(|| AppError::input("meaning", "choose what your signature means"))?;
+        let version: i64 = form.version.trim().parse().map_err(|_| {
+            AppError::input("version", "the form lost the version; reload the page")
         })?;
-        let version: i64 = form
-            .version
-            .trim()
-            .parse()
-            .map_err(|_| AppError::input("version", "the form lost the version; reload the page"))?;
         // The signer proves it is them, now: the password again.
         let stored = state.store.user_by_name(&actor.username).await?;
         let ok = stored
@@ -149,13 +149,35 @@ pub async fn sign(
     }
     .await;
     match result {
-        Ok(_) => Ok(see_other(&format!("/records/{}/{id}/history", entity.code()))),
+        Ok(_) => Ok(see_other(&format!(
+            "/records/{}/{id}/history",
+            entity.code()
+        ))),
         Err(AppError::Input(e)) => {
-            sign_page(&state, entity, id, form, e.into(), axum::http::StatusCode::UNPROCESSABLE_ENTITY).await
+            sign_page(
+                &state,
+                entity,
+                id,
+                form,
+                e.into(),
+                axum::http::StatusCode::UNPROCESSABLE_ENTITY,
+            )
+            .await
         }
         Err(AppError::Conflict(message)) => {
             let errors: FieldErrors = FieldError::new("version", message).into();
-            sign_page(&state, entity, id, SignForm { version: String::new(), ..form }, errors, axum::http::StatusCode::CONFLICT).await
+            sign_page(
+                &state,
+                entity,
+                id,
+                SignForm {
+                    version: String::new(),
+                    ..form
+                },
+                errors,
+                axum::http::StatusCode::CONFLICT,
+            )
+            .await
         }
         Err(other) => Err(other),
     }
