@@ -211,6 +211,7 @@ mod tests {
             fill_volume_ml: 2.0,
             solids_mass_fraction: 0.05,
             solution_density_g_ml: None,
+            unfrozen_water_g_per_g_solids: None,
             vial: Vial {
                 inner_area_cm2: 3.14,
                 outer_area_cm2: 3.80,
