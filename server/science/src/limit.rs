@@ -62,6 +62,28 @@ pub enum LimitBasis {
     Eutectic,
 }
 
+/// What a limit guards against, which decides the product temperature it is compared with:
+/// collapse of the amorphous phase begins at the sublimation front, so the front governs;
+/// eutectic melting begins in the warmest ice, at the vial bottom, so the warmer of front and
+/// bottom governs.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LimitKind {
+    #[default]
+    Collapse,
+    Eutectic,
+}
+
+impl LimitBasis {
+    /// Whether a limit on this basis guards against collapse or eutectic melting.
+    pub fn kind(self) -> LimitKind {
+        match self {
+            Self::Eutectic => LimitKind::Eutectic,
+            _ => LimitKind::Collapse,
+        }
+    }
+}
+
 /// `product-limit` topic input. All temperatures in °C.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
@@ -69,6 +91,8 @@ pub struct ProductLimitInput {
     pub collapse_onset_c: Option<f64>,
     pub tg_prime_c: Option<f64>,
     pub tg_prime_estimate_c: Option<f64>,
+    /// The lowest Te of every component expected to crystallize, whatever its share of the
+    /// solids: a minority salt that crystallizes melts at its Te all the same.
     pub eutectic_c: Option<f64>,
     /// Margin below a measured critical temperature; 2 °C when omitted.
     pub margin_c: Option<f64>,
