@@ -16,9 +16,14 @@
 //! height, never straddling a change of the shelf program, and the end is landed on
 //! exactly by a root solve over the last step.
 //!
-//! "Product temperature" compared with a limit is the front temperature, where the dried
-//! layer forms and collapse would begin; the bottom temperature (what a thermocouple in the
-//! vial bottom reads) is reported beside it.
+//! The limit crossings tracked here are for the front temperature, where the dried layer
+//! forms and collapse would begin; the bottom temperature (what a thermocouple in the vial
+//! bottom reads, and where eutectic melting would begin) is reported beside it. The batch
+//! of vials and the checks that choose between the two live in [`crate::batch`] and
+//! [`crate::verdict`].
+//!
+//! The ice is the fill's water less the water that never freezes ([`ice_mass_g`]); with the
+//! defaults (density 1 g/mL, no unfrozen water) it is the textbook fill × (1 − solids).
 
 use serde::{Deserialize, Serialize};
 
@@ -1789,6 +1794,14 @@ pub(crate) mod tests {
                 json!({"sublimation_enthalpy_j_g": 51_000.0}),
             ),
             ("max_product_temp_c", json!({"max_product_temp_c": 12.0})),
+            (
+                "unfrozen_water_g_per_g_solids",
+                json!({"unfrozen_water_g_per_g_solids": -0.1}),
+            ),
+            (
+                "solution_density_g_ml",
+                json!({"solution_density_g_ml": 2.5}),
+            ),
             ("shelf_temp_c", json!({"shelf_temp_c": 500.0})),
             ("shelf_temp_c", json!({"shelf_temp_c": null})),
             (

@@ -352,6 +352,17 @@ mod tests {
     }
 
     #[test]
+    fn a_minority_salt_s_eutectic_governs_below_a_measured_collapse_onset() {
+        // The case: collapse onset −18 °C measured, NaCl Te −21.1 °C (Drebushchak et
+        // al. 2017), a minority of the solids, not a crystalline matrix; margin 2 °C.
+        let r = limit(json!({"collapse_onset_c": -18.0, "eutectic_c": -21.1, "margin_c": 2.0}));
+        assert_eq!(r.basis, LimitBasis::Eutectic);
+        assert_eq!(r.basis.kind(), LimitKind::Eutectic);
+        assert_relative_eq!(r.max_product_temp_c, -23.1, max_relative = 1e-12);
+        assert_eq!(LimitBasis::CollapseOnset.kind(), LimitKind::Collapse);
+    }
+
+    #[test]
     fn nothing_to_go_on_is_refused_naming_the_input() {
         assert_eq!(
             calc_product_limit(json!({})).unwrap_err().field,
