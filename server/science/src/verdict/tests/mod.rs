@@ -1,16 +1,14 @@
 use super::*;
 use crate::batch::VialClass;
 use crate::dryer::CapabilityPoint;
+use crate::drying::simulate_summary;
 use crate::drying::tests::sucrose_5_percent;
-use crate::drying::{simulate_summary, DryingBase};
 use crate::ice::vapour_pressure_pa;
 use crate::units::{mtorr_to_pa, pa_to_mtorr};
-use proptest::prelude::*;
-use serde_json::json;
 
 /// A conservative cycle for 5 % sucrose (Tg′ ≈ −32 °C, literature value from memory) with a
 /// limit of −34 °C.
-fn cycle(primary_shelf_c: f64, pc_mtorr: f64, primary_hold_min: f64) -> CycleProgram {
+pub(super) fn cycle(primary_shelf_c: f64, pc_mtorr: f64, primary_hold_min: f64) -> CycleProgram {
     CycleProgram {
         freezing: FreezingStep {
             ramp_c_per_min: 1.0,
@@ -34,7 +32,7 @@ fn cycle(primary_shelf_c: f64, pc_mtorr: f64, primary_hold_min: f64) -> CyclePro
     }
 }
 
-fn sucrose_facts() -> FormulationFacts {
+pub(super) fn sucrose_facts() -> FormulationFacts {
     FormulationFacts {
         max_product_temp_c: Some(-34.0),
         tg_prime_c: Some(-32.0),
@@ -46,7 +44,7 @@ fn sucrose_facts() -> FormulationFacts {
 /// rising with pressure (shape after Patel, Chaudhary & Pikal 2010, from memory; the
 /// numbers are made up for the test), edge factor 1.3 (lab dryers 1.1–1.5, Rambhatla &
 /// Pikal 2003, from memory).
-fn lab_dryer() -> Dryer {
+pub(super) fn lab_dryer() -> Dryer {
     Dryer {
         shelf_area_m2: 1.0,
         min_pressure_mtorr: Some(20.0),
@@ -65,30 +63,30 @@ fn lab_dryer() -> Dryer {
     }
 }
 
-fn assess(c: &CycleProgram, f: &FormulationFacts, load: &Load) -> CycleAssessment {
+pub(super) fn assess(c: &CycleProgram, f: &FormulationFacts, load: &Load) -> CycleAssessment {
     assess_cycle(c, f, &sucrose_5_percent(), load, &VerdictOptions::default()).unwrap()
 }
 
-fn verdict(c: &CycleProgram, f: &FormulationFacts) -> CycleVerdict {
+pub(super) fn verdict(c: &CycleProgram, f: &FormulationFacts) -> CycleVerdict {
     assess(c, f, &Load::default()).verdict
 }
 
-fn state_of(v: &CycleVerdict, topic: CheckTopic) -> CheckState {
+pub(super) fn state_of(v: &CycleVerdict, topic: CheckTopic) -> CheckState {
     v.check(topic).map(|c| c.state).unwrap()
 }
 
-fn message_of(v: &CycleVerdict, topic: CheckTopic) -> String {
+pub(super) fn message_of(v: &CycleVerdict, topic: CheckTopic) -> String {
     v.check(topic).map(|c| c.message.clone()).unwrap()
 }
 
 /// The slowest class's predicted drying time for `c` (default load), h.
-fn slowest_h(c: &CycleProgram) -> f64 {
+pub(super) fn slowest_h(c: &CycleProgram) -> f64 {
     let a = assess(c, &sucrose_facts(), &Load::default());
     a.batch.unwrap().last_dry_h
 }
 
 /// A hold giving `total_h` of primary drying for `c`, ramp included.
-fn with_total(mut c: CycleProgram, total_h: f64) -> CycleProgram {
+pub(super) fn with_total(mut c: CycleProgram, total_h: f64) -> CycleProgram {
     let ramp_h =
         (c.primary.shelf_temp_c - c.freezing.hold_temp_c).abs() / c.primary.ramp_c_per_min / 60.0;
     c.primary.hold_min = (total_h - ramp_h) * 60.0;
@@ -321,7 +319,7 @@ fn freezing_must_reach_5_c_below_tg_prime_and_hold_an_hour() {
     assert_eq!(with_freezing(-45.0, 61.0), CheckState::Ok);
 }
 
-fn with_anneal(temp_c: f64, hold_min: f64) -> CycleProgram {
+pub(super) fn with_anneal(temp_c: f64, hold_min: f64) -> CycleProgram {
     let mut c = cycle(-35.0, 60.0, 140.0 * 60.0);
     c.annealing = Some(AnnealingStep {
         temp_c,
@@ -331,7 +329,7 @@ fn with_anneal(temp_c: f64, hold_min: f64) -> CycleProgram {
     c
 }
 
-fn anneal_state(c: &CycleProgram, f: &FormulationFacts) -> CheckState {
+pub(super) fn anneal_state(c: &CycleProgram, f: &FormulationFacts) -> CheckState {
     state_of(&verdict(c, f), CheckTopic::Annealing)
 }
 
@@ -422,200 +420,6 @@ fn an_anneal_below_tg_prime_is_not_described_as_growing_ice() {
 }
 
 #[test]
-fn every_secondary_drying_boundary_is_where_it_is_stated() {
-    // Table: (ramp °C/min, shelf °C, hold min, cake Tg, crystalline) → state. Ramp limits
-    // 0.15 amorphous / 0.4 crystalline (from memory), fail beyond twice (no source); holds
-    // 3–6 h (from memory); cake Tg margin 5 °C (no source); shelf above 60 °C watched.
-    let cases = [
-        (0.15, 40.0, 360.0, None, false, CheckState::Ok),
-        (0.16, 40.0, 360.0, None, false, CheckState::Watch),
-        (0.30, 40.0, 360.0, None, false, CheckState::Watch),
-        (0.31, 40.0, 360.0, None, false, CheckState::Fails),
-        (0.40, 40.0, 360.0, None, true, CheckState::Ok),
-        (0.81, 40.0, 360.0, None, true, CheckState::Fails),
-        (0.10, 40.0, 179.0, None, false, CheckState::Watch),
-        (0.10, 40.0, 181.0, None, false, CheckState::Ok),
-        (0.10, 40.0, 0.0, None, false, CheckState::Fails),
-        (0.10, 61.0, 360.0, None, false, CheckState::Watch),
-        (0.10, 40.0, 360.0, Some(46.0), false, CheckState::Ok),
-        (0.10, 40.0, 360.0, Some(44.0), false, CheckState::Watch),
-        (0.10, 40.0, 360.0, Some(40.0), false, CheckState::Fails),
-    ];
-    for (ramp, shelf, hold, cake, crystalline, want) in cases {
-        let mut c = cycle(-35.0, 60.0, 140.0 * 60.0);
-        c.secondary.ramp_c_per_min = ramp;
-        c.secondary.shelf_temp_c = shelf;
-        c.secondary.hold_min = hold;
-        let f = FormulationFacts {
-            dried_cake_tg_c: cake,
-            crystalline,
-            ..sucrose_facts()
-        };
-        let got = state_of(&verdict(&c, &f), CheckTopic::SecondaryDrying);
-        assert_eq!(
-            got, want,
-            "ramp {ramp}, shelf {shelf}, hold {hold}, cake {cake:?}"
-        );
-    }
-}
-
-#[test]
-fn every_product_temperature_boundary_is_where_it_is_stated() {
-    // ok ≥ 1 °C below, watch within 1 °C (common practice, no source), fails above.
-    let c = cycle(-35.0, 60.0, 140.0 * 60.0);
-    let b = assess(&c, &sucrose_facts(), &Load::default())
-        .batch
-        .unwrap();
-    let peak = b
-        .warmest_by(|c| c.peak_front_temp_c)
-        .unwrap()
-        .peak_front_temp_c;
-    for (offset, want) in [
-        (1.01, CheckState::Ok),
-        (0.99, CheckState::Watch),
-        (0.01, CheckState::Watch),
-        (-0.01, CheckState::Fails),
-    ] {
-        let f = FormulationFacts {
-            max_product_temp_c: Some(peak + offset),
-            ..sucrose_facts()
-        };
-        let v = verdict(&c, &f);
-        assert_eq!(
-            state_of(&v, CheckTopic::ProductTemperature),
-            want,
-            "offset {offset}"
-        );
-    }
-    let v = verdict(&c, &FormulationFacts::default());
-    assert_eq!(
-        state_of(&v, CheckTopic::ProductTemperature),
-        CheckState::Watch
-    );
-}
-
-/// The load's peak sublimation rate for `c` with `n` vials, kg/h.
-fn peak_kg_h(c: &CycleProgram, n: f64) -> f64 {
-    let load = Load {
-        vial_count: Some(n),
-        ..Load::default()
-    };
-    assess(c, &sucrose_facts(), &load)
-        .batch
-        .unwrap()
-        .peak_sublimation_kg_h
-        .unwrap()
-}
-
-#[test]
-fn every_equipment_boundary_is_where_it_is_stated() {
-    // Capacity use above 80 % watched (common practice, no source), above 100 % fails.
-    let c = cycle(-35.0, 100.0, 140.0 * 60.0);
-    let peak = peak_kg_h(&c, 1000.0);
-    for (capability, want) in [
-        (peak / 0.79, CheckState::Ok),
-        (peak / 0.81, CheckState::Watch),
-        (peak / 1.01, CheckState::Fails),
-    ] {
-        let dryer = Dryer {
-            shelf_area_m2: 1.0,
-            min_pressure_mtorr: Some(20.0),
-            condenser_capacity_kg: Some(100.0),
-            capability: Some(vec![CapabilityPoint {
-                pressure_mtorr: 100.0,
-                max_sublimation_kg_h: capability,
-            }]),
-            edge_heat_factor: None,
-        };
-        let load = Load {
-            dryer: Some(dryer),
-            vial_count: Some(1000.0),
-            ..Load::default()
-        };
-        let v = assess(&c, &sucrose_facts(), &load).verdict;
-        assert_eq!(
-            state_of(&v, CheckTopic::Equipment),
-            want,
-            "capability {capability}"
-        );
-    }
-    // Ice: 1000 vials × 3.8 g = 3.8 kg against the condenser's capacity.
-    for (capacity, want) in [
-        (3.8 / 0.79, CheckState::Ok),
-        (3.8 / 0.81, CheckState::Watch),
-        (3.8 / 1.01, CheckState::Fails),
-    ] {
-        let mut dryer = lab_dryer();
-        dryer.capability = Some(vec![CapabilityPoint {
-            pressure_mtorr: 100.0,
-            max_sublimation_kg_h: 100.0,
-        }]);
-        dryer.condenser_capacity_kg = Some(capacity);
-        let load = Load {
-            dryer: Some(dryer),
-            vial_count: Some(1000.0),
-            ..Load::default()
-        };
-        let v = assess(&c, &sucrose_facts(), &load).verdict;
-        assert_eq!(
-            state_of(&v, CheckTopic::Equipment),
-            want,
-            "condenser {capacity}"
-        );
-    }
-    // A set pressure below the lowest controllable fails.
-    let mut dryer = lab_dryer();
-    dryer.min_pressure_mtorr = Some(101.0);
-    let load = Load {
-        dryer: Some(dryer),
-        vial_count: Some(10.0),
-        ..Load::default()
-    };
-    let v = assess(&c, &sucrose_facts(), &load).verdict;
-    assert_eq!(state_of(&v, CheckTopic::Equipment), CheckState::Fails);
-    assert!(message_of(&v, CheckTopic::Equipment).contains("below the 101 mTorr"));
-}
-
-#[test]
-fn a_choked_cycle_fails_at_low_pressure_and_passes_at_a_higher_one() {
-    // Choked flow: the capability rises about linearly with pressure (Patel, Chaudhary &
-    // Pikal 2010, from memory); the load's rate hardly rises at the same shelf temperature,
-    // so a cycle that chokes at low pressure fits at a higher one.
-    let low = cycle(-25.0, 50.0, 140.0 * 60.0);
-    let high = cycle(-25.0, 150.0, 140.0 * 60.0);
-    let n = 2000.0;
-    let (r_low, r_high) = (peak_kg_h(&low, n), peak_kg_h(&high, n));
-    // A capability line through the origin with the load's low-pressure rate at 75 mTorr.
-    let slope = r_low / 75.0;
-    let dryer = Dryer {
-        shelf_area_m2: 2.0,
-        min_pressure_mtorr: None,
-        condenser_capacity_kg: None,
-        capability: Some(vec![
-            CapabilityPoint {
-                pressure_mtorr: 10.0,
-                max_sublimation_kg_h: 10.0 * slope,
-            },
-            CapabilityPoint {
-                pressure_mtorr: 300.0,
-                max_sublimation_kg_h: 300.0 * slope,
-            },
-        ]),
-        edge_heat_factor: None,
-    };
-    assert!(r_high < 150.0 * slope * 0.8, "{r_high} kg/h at 150 mTorr");
-    let load = Load {
-        dryer: Some(dryer),
-        vial_count: Some(n),
-        ..Load::default()
-    };
-    let v = assess(&low, &FormulationFacts::default(), &load).verdict;
-    assert_eq!(state_of(&v, CheckTopic::Equipment), CheckState::Fails);
-    let v = assess(&high, &FormulationFacts::default(), &load).verdict;
-    assert_eq!(state_of(&v, CheckTopic::Equipment), CheckState::Ok);
-}
-
-#[test]
 fn a_primary_step_that_sublimes_nothing_fails_instead_of_being_refused() {
     let v = verdict(&cycle(-42.0, 150.0, 140.0 * 60.0), &sucrose_facts());
     assert_eq!(v.overall, CheckState::Fails);
@@ -639,158 +443,5 @@ fn bad_cycle_numbers_are_refused_by_name() {
     assert_eq!(err.field, "anneal_window_c");
 }
 
-fn topic_input() -> serde_json::Value {
-    json!({
-        "cycle": {
-            "freezing": {"ramp_c_per_min": 1.0, "hold_temp_c": -45.0, "hold_min": 120.0},
-            "primary": {"ramp_c_per_min": 0.5, "shelf_temp_c": -35.0,
-                        "chamber_pressure_mtorr": 60.0, "hold_min": 12000.0},
-            "secondary": {"ramp_c_per_min": 0.1, "shelf_temp_c": 40.0,
-                          "pressure_mtorr": 60.0, "hold_min": 360.0},
-            "condenser_temp_c": -70.0
-        },
-        "formulation": {"max_product_temp_c": -34.0, "limit_kind": "collapse",
-                        "tg_prime_c": -32.0},
-        "fill_volume_ml": 4.0,
-        "solids_mass_fraction": 0.05,
-        "vial": {"inner_area_cm2": 3.8, "outer_area_cm2": 4.71, "kc_cal_s_cm2_k": 3.0e-4,
-                 "kp_cal_s_cm2_k_torr": 1.5e-3, "kd_per_torr": 1.0},
-        "resistance": {"r0_cm2_torr_h_g": 1.4, "a1_cm_torr_h_g": 16.0, "a2_per_cm": 0.0},
-        "dryer": {"shelf_area_m2": 1.0, "min_pressure_mtorr": 20.0,
-                  "condenser_capacity_kg": 20.0, "edge_heat_factor": 1.3,
-                  "capability": [{"pressure_mtorr": 50.0, "max_sublimation_kg_h": 0.5},
-                                 {"pressure_mtorr": 200.0, "max_sublimation_kg_h": 2.0}]},
-        "vial_count": 500
-    })
-}
-
-#[test]
-fn the_cycle_check_topic_answers_with_the_documented_fields() {
-    let out = calc_cycle_check(topic_input()).unwrap();
-    assert_eq!(out["overall"], "ok", "{out:#}");
-    let topics: Vec<&str> = out["checks"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|c| c["topic"].as_str().unwrap())
-        .collect();
-    assert_eq!(
-        topics,
-        [
-            "product_temperature",
-            "primary_drying_time",
-            "freezing",
-            "annealing",
-            "secondary_drying",
-            "condenser",
-            "equipment"
-        ]
-    );
-    let vials = out["vials"].as_array().unwrap();
-    assert_eq!(vials.len(), 4);
-    for key in [
-        "class",
-        "share",
-        "peak_front_temp_c",
-        "peak_bottom_temp_c",
-        "drying_time_h",
-        "peak_sublimation_rate_g_h",
-    ] {
-        assert!(vials[0].get(key).is_some(), "vials lack {key}");
-    }
-    assert!(vials.iter().any(|v| v["class"] == "edge"));
-    for key in ["first_dry_h", "last_dry_h", "peak_sublimation_kg_h"] {
-        assert!(out["batch"].get(key).is_some(), "batch lacks {key}");
-    }
-    assert!(out["caution"]
-        .as_str()
-        .unwrap()
-        .contains("experimental confirmation"));
-    assert!(crate::calc::TOPICS.contains(&"cycle-check"));
-}
-
-#[test]
-fn bad_cycle_check_inputs_are_refused_naming_the_field() {
-    let cases = [
-        (
-            json!({"cycle": {"primary": {"hold_min": -5.0}}}),
-            "cycle.primary.hold_min",
-        ),
-        (json!({"formulation": {"te_c": 500.0}}), "formulation.te_c"),
-        (
-            json!({"formulation": {"limit_kind": "melting"}}),
-            "formulation.limit_kind",
-        ),
-        (
-            json!({"dryer": {"shelf_area_m2": -1.0}}),
-            "dryer.shelf_area_m2",
-        ),
-        (
-            json!({"dryer": {"edge_heat_factor": 0.5}}),
-            "dryer.edge_heat_factor",
-        ),
-        (json!({"vial_count": 0}), "vial_count"),
-        (json!({"edge_vial_share": 1.5}), "edge_vial_share"),
-        (json!({"fill_volume_ml": 0.0}), "fill_volume_ml"),
-        (
-            json!({"unfrozen_water_g_per_g_solids": 2.0}),
-            "unfrozen_water_g_per_g_solids",
-        ),
-        (
-            json!({"vial": {"kc_cal_s_cm2_k": -1.0}}),
-            "vial.kc_cal_s_cm2_k",
-        ),
-    ];
-    for (patch, field) in cases {
-        let mut input = topic_input();
-        crate::drying::tests::merge(&mut input, &patch);
-        let err = calc_cycle_check(input).unwrap_err();
-        assert_eq!(err.field, field, "{patch}: {err}");
-    }
-}
-
-fn base_with(pc_kv: f64) -> DryingBase {
-    let mut b = sucrose_5_percent();
-    b.vial.kc_cal_s_cm2_k *= pc_kv;
-    b
-}
-
-proptest! {
-    #![proptest_config(ProptestConfig::with_cases(24))]
-
-    #[test]
-    fn a_hotter_shelf_never_makes_the_product_temperature_better(
-        shelf in -40.0f64..-5.0, step in 0.5f64..8.0, limit in -40.0f64..-15.0,
-        kind in prop::bool::ANY,
-    ) {
-        let facts = FormulationFacts {
-            max_product_temp_c: Some(limit),
-            limit_kind: if kind { LimitKind::Eutectic } else { LimitKind::Collapse },
-            ..FormulationFacts::default()
-        };
-        let opts = VerdictOptions::default();
-        let load = Load::default();
-        let base = base_with(1.0);
-        let cool = assess_cycle(&cycle(shelf, 80.0, 6000.0), &facts, &base, &load, &opts).unwrap();
-        let warm = assess_cycle(&cycle(shelf + step, 80.0, 6000.0), &facts, &base, &load, &opts)
-            .unwrap();
-        let (a, b) = (
-            state_of(&cool.verdict, CheckTopic::ProductTemperature),
-            state_of(&warm.verdict, CheckTopic::ProductTemperature),
-        );
-        // A shelf too cold to dry leaves the temperature unjudged (watch); skip that case.
-        if cool.stop.is_none() {
-            prop_assert!(b >= a, "{a:?} at {shelf} °C, {b:?} at {} °C", shelf + step);
-        }
-    }
-
-    #[test]
-    fn more_vials_never_make_the_equipment_better(n in 10.0f64..5000.0, more in 1.0f64..4.0) {
-        let c = cycle(-25.0, 100.0, 140.0 * 60.0);
-        let state = |count: f64| {
-            let load = Load { dryer: Some(lab_dryer()), vial_count: Some(count), ..Load::default() };
-            state_of(&assess(&c, &sucrose_facts(), &load).verdict, CheckTopic::Equipment)
-        };
-        prop_assert!(state(n * more) >= state(n));
-    }
-}
+mod boundaries;
+mod topic;
