@@ -100,6 +100,9 @@ pub struct Derived {
     pub uses_crystalline_limit: bool,
     pub annealing: Option<AnnealingAdvice>,
     pub annealing_note: Option<String>,
+    /// Measured dried-cake Tg at the lowest residual moisture recorded: the cake as it
+    /// stands at the end of secondary drying.
+    pub dried_cake_tg_c: Option<f64>,
 }
 
 impl Derived {
@@ -193,6 +196,18 @@ pub fn derive(
             Some((m.value(PropertyKind::Te)?, c.material_name.clone()))
         })
         .min_by(|a, b| a.0.total_cmp(&b.0));
+    // The limit takes the Te of every component expected to crystallize, whatever its
+    // share: a minority salt that crystallizes melts at its Te all the same.
+    let library_te = f
+        .components
+        .iter()
+        .filter(|c| c.freezing_behaviour == FreezingBehaviour::Crystallizes)
+        .filter_map(|c| {
+            let m = materials.iter().find(|m| m.id == c.material_id)?;
+            Some((m.value(PropertyKind::Te)?, c.material_name.clone()))
+        })
+        .chain(library_te)
+        .min_by(|a, b| a.0.total_cmp(&b.0));
     let (te_c, te_basis) = match (mean_of(measurements, MeasurementKind::Te), library_te) {
         (Some(t), _) => (
             Some(t),
@@ -206,7 +221,7 @@ pub fn derive(
         collapse_onset_c: measured_collapse_onset_c,
         tg_prime_c: measured_tg_prime_c,
         tg_prime_estimate_c: estimate_value,
-        eutectic_c: if crystalline_matrix { te_c } else { None },
+        eutectic_c: te_c,
         margin_c: Some(margin_c),
         estimate_margin_c: None,
         crystalline_matrix,
@@ -282,17 +297,87 @@ pub fn derive(
         limit_note,
         annealing,
         annealing_note,
+        dried_cake_tg_c: driest_cake_tg(measurements),
     }
+}
+
+/// The dried-cake Tg measured at the lowest residual moisture (mean of its replicates).
+fn driest_cake_tg(measurements: &[Measurement]) -> Option<f64> {
+    let cake: Vec<&Measurement> = measurements
+        .iter()
+        .filter(|m| m.kind == MeasurementKind::CakeTg)
+        .collect();
+    let driest = cake
+        .iter()
+        .filter_map(|m| m.residual_moisture_pct)
+        .min_by(f64::total_cmp)?;
+    let values: Vec<f64> = cake
+        .iter()
+        .filter(|m| m.residual_moisture_pct == Some(driest))
+        .map(|m| m.value_c)
+        .collect();
+    Some(values.iter().sum::<f64>() / values.len() as f64)
 }
 
 // ---------------------------------------------------------------- cycles
 
+use glasspoint_science::batch::BatchResult;
 use glasspoint_science::design_space::SublimationCeiling;
-use glasspoint_science::drying::{DryingBase, PrimaryDryingResult, Resistance, Vial};
-use glasspoint_science::verdict::{check_and_simulate, CycleVerdict, FormulationFacts};
+use glasspoint_science::drying::{
+    solution_density_g_ml, DryingBase, PrimaryDryingResult, Resistance, Vial,
+};
+use glasspoint_science::gauge::{
+    end_of_primary_drying_h, pirani_trace, PiraniPoint, DEFAULT_TOLERANCE_SHARE,
+    DEFAULT_WATER_FRACTION_AT_PEAK,
+};
+use glasspoint_science::limit::LimitKind;
+use glasspoint_science::suggest::{suggest, SuggestInput, Suggestion};
+use glasspoint_science::verdict::{
+    assess_cycle, primary_drying_input, CycleVerdict, FormulationFacts, Load, VerdictOptions,
+};
 
-/// Solution density taken for every formulation, g/mL (the model's default).
+/// Solution density the pages quote solids fractions at, g/mL. The drying model itself
+/// uses [`solution_density`], estimated from the composition.
 pub const SOLUTION_DENSITY_G_ML: f64 = 1.0;
+
+/// Density of a solid whose library entry has none, g/cm³: sugars and polyols lie near
+/// 1.5–1.6 (sucrose 1.59, mannitol 1.52; from memory).
+pub const DEFAULT_SOLID_DENSITY_G_CM3: f64 = 1.5;
+
+/// Unfrozen water of the freeze-concentrate, g per g of amorphous solids: sucrose's
+/// 0.2–0.25 (Roos 1993; Ablett, Izzard & Lillford 1992; from memory), the low end taken for
+/// every amorphous solid until the library holds its own.
+pub const UNFROZEN_WATER_G_PER_G_AMORPHOUS: f64 = 0.2;
+
+/// The solution's density from its composition: each solute's partial specific volume
+/// taken as 1 / its density (close for sugars: sucrose 0.63 mL/g against 1/1.59).
+pub fn solution_density(f: &Formulation, materials: &[Material]) -> f64 {
+    let excess: f64 = f
+        .components
+        .iter()
+        .map(|c| {
+            let rho = materials
+                .iter()
+                .find(|m| m.id == c.material_id)
+                .and_then(|m| m.value(PropertyKind::Density))
+                .filter(|r| *r > 0.0)
+                .unwrap_or(DEFAULT_SOLID_DENSITY_G_CM3);
+            solution_density_g_ml(c.concentration_mg_ml, 1.0 / rho) - 1.0
+        })
+        .sum();
+    1.0 + excess
+}
+
+/// Unfrozen water per g of all solids: the amorphous solids' share × Wg′.
+pub fn unfrozen_water(f: &Formulation) -> f64 {
+    let amorphous: f64 = f
+        .components
+        .iter()
+        .filter(|c| c.freezing_behaviour != FreezingBehaviour::Crystallizes)
+        .map(|c| c.solid_fraction)
+        .sum();
+    UNFROZEN_WATER_G_PER_G_AMORPHOUS * amorphous
+}
 
 /// A stated default dry-layer resistance for a solids content, used until the team
 /// measures one: the often-quoted 5 % sucrose values (R0 ≈ 1.4 cm²·Torr·h/g,
@@ -325,17 +410,21 @@ pub async fn resistance_of(store: &Store, f: &Formulation) -> Result<DryLayerRes
     })
 }
 
-/// The primary-drying model's view of a formulation in a container and fill.
+/// The primary-drying model's view of a formulation in a container and fill: the solution
+/// density from the composition and the water that never freezes.
 pub fn drying_base(
     f: &Formulation,
+    materials: &[Material],
     container: &Container,
     fill_volume_ml: f64,
     resistance: Resistance,
 ) -> DryingBase {
+    let density = solution_density(f, materials);
     DryingBase {
         fill_volume_ml,
-        solids_mass_fraction: f.solids_mass_fraction(SOLUTION_DENSITY_G_ML),
-        solution_density_g_ml: Some(SOLUTION_DENSITY_G_ML),
+        solids_mass_fraction: f.solids_mass_fraction(density),
+        solution_density_g_ml: Some(density),
+        unfrozen_water_g_per_g_solids: Some(unfrozen_water(f)),
         vial: Vial {
             inner_area_cm2: container.inner_area_cm2,
             outer_area_cm2: container.outer_area_cm2,
@@ -352,13 +441,23 @@ pub fn drying_base(
 
 /// What the verdict checks know of a formulation.
 pub fn facts(d: &Derived) -> FormulationFacts {
+    let eutectic_governs = d.uses_crystalline_limit
+        || d.limit
+            .as_ref()
+            .is_some_and(|l| l.basis.kind() == LimitKind::Eutectic);
     FormulationFacts {
         max_product_temp_c: d.max_product_temp_c(),
+        limit_kind: if eutectic_governs {
+            LimitKind::Eutectic
+        } else {
+            LimitKind::Collapse
+        },
         tg_prime_c: d.tg_prime_c(),
         te_c: d.te_c,
         crystalline: d.crystalline_matrix,
         anneal_advised: d.anneal_advised(),
         anneal_window_c: d.anneal_window_c(),
+        dried_cake_tg_c: d.dried_cake_tg_c,
     }
 }
 
@@ -372,12 +471,50 @@ pub struct Assessment {
     pub resistance: DryLayerResistance,
     pub base: DryingBase,
     pub verdict: Result<CycleVerdict, String>,
-    /// The primary-drying simulation of the cycle, when the model could run it.
+    /// The nominal centre vial's primary drying, for the single-vial charts.
     pub simulation: Option<PrimaryDryingResult>,
+    /// The batch's vial classes through primary drying, when the model could dry them all.
+    pub batch: Option<BatchResult>,
+}
+
+impl Assessment {
+    /// The Pirani and manometer readings through the batch's primary drying, and when they
+    /// meet (empty without a batch).
+    pub fn gauge_trace(&self) -> Result<(Vec<PiraniPoint>, Option<f64>), AppError> {
+        let Some(batch) = &self.batch else {
+            return Ok((Vec::new(), None));
+        };
+        let pc = self.cycle.program.primary.chamber_pressure_mtorr;
+        let trace = pirani_trace(batch, pc, DEFAULT_WATER_FRACTION_AT_PEAK)?;
+        let end = end_of_primary_drying_h(&trace, DEFAULT_TOLERANCE_SHARE)?;
+        Ok((trace, end))
+    }
+
+    /// The fastest primary drying the model finds within the limit for this link's batch.
+    pub fn suggestion(&self) -> Result<Suggestion, String> {
+        let limit = self.derived.max_product_temp_c().ok_or(
+            "no maximum product temperature is derived yet, so no faster cycle can be searched for",
+        )?;
+        let facts = facts(&self.derived);
+        suggest(&SuggestInput {
+            base: self.base.clone(),
+            max_product_temp_c: limit,
+            limit_kind: Some(facts.limit_kind),
+            shelf_range_c: None,
+            pressure_range_mtorr: None,
+            start_shelf_temp_c: Some(self.cycle.program.freezing.hold_temp_c),
+            ramp_c_per_min: Some(self.cycle.program.primary.ramp_c_per_min),
+            dryer: None,
+            vial_count: None,
+            edge_vial_share: None,
+            kv_cv: None,
+        })
+        .map_err(|e| format!("{}: {}", e.field, e.message))
+    }
 }
 
 /// Assesses a link: derives the formulation's limit, simulates the cycle's primary drying
-/// and runs every check.
+/// for the batch and runs every check.
 pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Assessment, AppError> {
     let cycle = store.get_cycle(link.cycle_id).await?;
     let formulation = store.get_formulation(link.formulation_id).await?;
@@ -388,19 +525,27 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
     let resistance = resistance_of(store, &formulation).await?;
     let base = drying_base(
         &formulation,
+        &materials,
         &container,
         link.fill_volume_ml,
         resistance.resistance,
     );
     let facts = facts(&derived);
-    let ceiling = cycle
-        .sublimation_ceiling_kg_h_m2
-        .map(SublimationCeiling::PerShelfAreaKgHM2);
-    let (verdict, simulation) =
-        match check_and_simulate(&cycle.program, &facts, &base, ceiling, None) {
-            Ok((v, sim)) => (Ok(v), sim),
+    let options = VerdictOptions {
+        sublimation_ceiling_g_h_per_vial: cycle.sublimation_ceiling_kg_h_m2.map(|c| {
+            SublimationCeiling::PerShelfAreaKgHM2(c).per_vial_g_h(container.outer_area_cm2)
+        }),
+        ..VerdictOptions::default()
+    };
+    let (verdict, batch) =
+        match assess_cycle(&cycle.program, &facts, &base, &Load::default(), &options) {
+            Ok(a) => (Ok(a.verdict), a.batch),
             Err(e) => (Err(format!("{}: {}", e.field, e.message)), None),
         };
+    let simulation = batch.as_ref().and_then(|_| {
+        let input = primary_drying_input(&cycle.program, &base, facts.max_product_temp_c);
+        glasspoint_science::drying::simulate(&input).ok()
+    });
     Ok(Assessment {
         link,
         cycle,
@@ -411,5 +556,6 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
         base,
         verdict,
         simulation,
+        batch,
     })
 }

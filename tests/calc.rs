@@ -98,7 +98,35 @@ fn cases() -> Vec<(&'static str, Value, &'static str, Value)> {
             "max_product_temp_c",
             json!({"base": base(), "max_product_temp_c": f64::NAN.to_string()}),
         ),
+        (
+            "cycle-check",
+            cycle_check(json!(60.0)),
+            "cycle.primary.chamber_pressure_mtorr",
+            cycle_check(json!(-5.0)),
+        ),
     ]
+}
+
+/// A `cycle-check` input for 5 % sucrose with the primary pressure given.
+fn cycle_check(pressure: Value) -> Value {
+    let mut input = base();
+    let obj = input.as_object_mut().unwrap();
+    obj.insert("cycle".into(), json!({
+        "freezing": {"ramp_c_per_min": 1.0, "hold_temp_c": -45.0, "hold_min": 120.0},
+        "primary": {"ramp_c_per_min": 0.5, "shelf_temp_c": -30.0, "chamber_pressure_mtorr": pressure, "hold_min": 6000.0},
+        "secondary": {"ramp_c_per_min": 0.1, "shelf_temp_c": 40.0, "pressure_mtorr": 60.0, "hold_min": 360.0},
+        "condenser_temp_c": -70.0
+    }));
+    obj.insert(
+        "formulation".into(),
+        json!({"max_product_temp_c": -34.0, "limit_kind": "collapse", "tg_prime_c": -32.0}),
+    );
+    obj.insert(
+        "dryer".into(),
+        json!({"shelf_area_m2": 1.0, "edge_heat_factor": 1.2}),
+    );
+    obj.insert("vial_count".into(), json!(500));
+    input
 }
 
 #[tokio::test]

@@ -54,7 +54,7 @@ on_both_backends! {
         let link = app.store.links_of_cycle(cycle_id).await.unwrap().remove(0);
         let link_page = app.get(&format!("{path}/links/{}", link.id)).await;
         assert_eq!(link_page.status, StatusCode::OK);
-        for check in ["Product temperature", "Primary drying time", "Freezing", "Secondary-drying ramp", "Condenser"] {
+        for check in ["Product temperature", "Primary drying time", "Freezing", "Secondary drying", "Condenser"] {
             assert!(link_page.body.contains(check), "{check} is checked");
         }
         assert!(link_page.body.contains("stated default"), "the default resistance is marked as such");

@@ -9,7 +9,6 @@ use axum::response::Response;
 use axum::routing::{get, post};
 use axum::Router;
 use glasspoint_science::design_space::{design_space, BoundaryState, CellState, DesignSpaceInput};
-use glasspoint_science::suggest::{suggest, SuggestInput};
 use glasspoint_science::verdict::{CheckState, CheckTopic, CycleVerdict};
 use serde::Deserialize;
 
@@ -72,8 +71,8 @@ pub fn topic_label(t: CheckTopic) -> &'static str {
         CheckTopic::PrimaryDryingTime => "Primary drying time",
         CheckTopic::Freezing => "Freezing",
         CheckTopic::Annealing => "Annealing",
-        CheckTopic::SecondaryRamp => "Secondary-drying ramp",
-        CheckTopic::SublimationCapacity => "Equipment sublimation capacity",
+        CheckTopic::SecondaryDrying => "Secondary drying",
+        CheckTopic::Equipment => "Equipment",
         CheckTopic::Condenser => "Condenser",
     }
 }
@@ -643,18 +642,7 @@ fn simulation_facts(a: &Assessment) -> Vec<(String, String)> {
 }
 
 fn suggestion_for(a: &Assessment) -> Result<glasspoint_science::suggest::Suggestion, String> {
-    let limit = a.derived.max_product_temp_c().ok_or(
-        "no maximum product temperature is derived yet, so no faster cycle can be searched for",
-    )?;
-    suggest(&SuggestInput {
-        base: a.base.clone(),
-        max_product_temp_c: limit,
-        shelf_range_c: None,
-        pressure_range_mtorr: None,
-        start_shelf_temp_c: Some(a.cycle.program.freezing.hold_temp_c),
-        ramp_c_per_min: Some(a.cycle.program.primary.ramp_c_per_min),
-    })
-    .map_err(|e| format!("{}: {}", e.field, e.message))
+    a.suggestion()
 }
 
 async fn link_detail(
@@ -865,20 +853,8 @@ async fn gauges_svg(
     State(state): State<AppState>,
     Path((id, link)): Path<(i64, i64)>,
 ) -> Result<Response, AppError> {
-    use glasspoint_science::gauge::{
-        end_of_primary_drying_h, pirani_trace, DEFAULT_TOLERANCE_SHARE,
-        DEFAULT_WATER_FRACTION_AT_PEAK,
-    };
     let a = link_of(&state, id, link).await?;
-    let pc = a.cycle.program.primary.chamber_pressure_mtorr;
-    let (trace, end) = match &a.simulation {
-        Some(sim) => {
-            let trace = pirani_trace(sim, pc, DEFAULT_WATER_FRACTION_AT_PEAK)?;
-            let end = end_of_primary_drying_h(&trace, DEFAULT_TOLERANCE_SHARE)?;
-            (trace, end)
-        }
-        None => (Vec::new(), None),
-    };
+    let (trace, end) = a.gauge_trace()?;
     let chart = LineChart {
         title: format!(
             "{}: pressure gauges in primary drying (estimated)",

@@ -14,6 +14,7 @@ fn base() -> DryingBase {
         fill_volume_ml: 4.0,
         solids_mass_fraction: 0.05,
         solution_density_g_ml: None,
+        unfrozen_water_g_per_g_solids: None,
         vial: Vial {
             inner_area_cm2: 3.80,
             outer_area_cm2: 4.71,

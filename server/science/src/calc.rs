@@ -21,6 +21,7 @@ pub const TOPICS: &[&str] = &[
     "primary-drying",
     "design-space",
     "suggest-primary-drying",
+    "cycle-check",
 ];
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -49,6 +50,7 @@ pub fn run(topic: &str, input: Value) -> Result<Value, CalcError> {
         "primary-drying" => crate::drying::calc_primary_drying(input),
         "design-space" => crate::design_space::calc_design_space(input),
         "suggest-primary-drying" => crate::suggest::calc_suggest_primary_drying(input),
+        "cycle-check" => crate::verdict::calc_cycle_check(input),
         other => return Err(CalcError::UnknownTopic(other.to_string())),
     };
     Ok(out?)

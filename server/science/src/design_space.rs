@@ -219,6 +219,9 @@ pub(crate) struct Explorer {
     pub product: Product,
     pub approach: Approach,
     pub limit_k: f64,
+    /// Hold the limit at the warmer of front and bottom (a eutectic limit) instead of the
+    /// front (a collapse limit).
+    pub use_bottom: bool,
 }
 
 impl Explorer {
@@ -232,6 +235,15 @@ impl Explorer {
         )
     }
 
+    /// The product temperature held against the limit, °C.
+    pub fn peak_c(&self, s: &DryingSummary) -> f64 {
+        if self.use_bottom {
+            s.peak_front_temp_c.max(s.peak_bottom_temp_c)
+        } else {
+            s.peak_front_temp_c
+        }
+    }
+
     pub fn run(&self, shelf_c: f64, pressure_mtorr: f64) -> Result<DryingSummary, DryingStop> {
         run(&self.product, &self.conditions(shelf_c, pressure_mtorr))
     }
@@ -240,7 +252,7 @@ impl Explorer {
     /// melting counts as far above, a shelf too cold to sublime as the shelf itself.
     fn excess_k(&self, shelf_c: f64, pressure_mtorr: f64) -> f64 {
         match self.run(shelf_c, pressure_mtorr) {
-            Ok(s) => c_to_k(s.peak_front_temp_c) - self.limit_k,
+            Ok(s) => c_to_k(self.peak_c(&s)) - self.limit_k,
             Err(DryingStop::IceWouldMelt { .. }) => 273.15 - self.limit_k,
             Err(DryingStop::NoSublimation { .. } | DryingStop::TooSlow { .. }) => {
                 c_to_k(shelf_c) - self.limit_k
@@ -359,6 +371,7 @@ pub fn design_space(input: &DesignSpaceInput) -> Result<DesignSpace, InputError>
         product,
         approach,
         limit_k,
+        use_bottom: false,
     };
 
     enum Task {

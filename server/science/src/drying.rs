@@ -16,9 +16,14 @@
 //! height, never straddling a change of the shelf program, and the end is landed on
 //! exactly by a root solve over the last step.
 //!
-//! "Product temperature" compared with a limit is the front temperature, where the dried
-//! layer forms and collapse would begin; the bottom temperature (what a thermocouple in the
-//! vial bottom reads) is reported beside it.
+//! The limit crossings tracked here are for the front temperature, where the dried layer
+//! forms and collapse would begin; the bottom temperature (what a thermocouple in the vial
+//! bottom reads, and where eutectic melting would begin) is reported beside it. The batch
+//! of vials and the checks that choose between the two live in [`crate::batch`] and
+//! [`crate::verdict`].
+//!
+//! The ice is the fill's water less the water that never freezes ([`ice_mass_g`]); with the
+//! defaults (density 1 g/mL, no unfrozen water) it is the textbook fill × (1 − solids).
 
 use serde::{Deserialize, Serialize};
 
@@ -100,6 +105,10 @@ pub struct DryingBase {
     pub solids_mass_fraction: f64,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub solution_density_g_ml: Option<f64>,
+    /// Water that never freezes, g per g of solids (Wg′ of the freeze-concentrate times
+    /// the amorphous share of the solids); 0 when omitted.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unfrozen_water_g_per_g_solids: Option<f64>,
     pub vial: Vial,
     pub resistance: Resistance,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -126,6 +135,10 @@ pub struct PrimaryDryingInput {
     pub solids_mass_fraction: f64,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub solution_density_g_ml: Option<f64>,
+    /// Water that never freezes, g per g of solids (Wg′ of the freeze-concentrate times
+    /// the amorphous share of the solids); 0 when omitted.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unfrozen_water_g_per_g_solids: Option<f64>,
     pub vial: Vial,
     pub resistance: Resistance,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -175,6 +188,7 @@ impl PrimaryDryingInput {
             fill_volume_ml: base.fill_volume_ml,
             solids_mass_fraction: base.solids_mass_fraction,
             solution_density_g_ml: base.solution_density_g_ml,
+            unfrozen_water_g_per_g_solids: base.unfrozen_water_g_per_g_solids,
             vial: base.vial,
             resistance: base.resistance,
             ice_density_g_cm3: base.ice_density_g_cm3,
@@ -196,6 +210,7 @@ impl PrimaryDryingInput {
             fill_volume_ml: self.fill_volume_ml,
             solids_mass_fraction: self.solids_mass_fraction,
             solution_density_g_ml: self.solution_density_g_ml,
+            unfrozen_water_g_per_g_solids: self.unfrozen_water_g_per_g_solids,
             vial: self.vial,
             resistance: self.resistance,
             ice_density_g_cm3: self.ice_density_g_cm3,
@@ -357,6 +372,10 @@ pub struct Product {
     ice_density_kg_m3: f64,
     ice_conductivity: f64,
     enthalpy_j_kg: f64,
+    /// Kv of this vial over the vial type's Kv (an edge vial, a vial of a spread).
+    kv_factor: f64,
+    /// Rp of this vial over the formulation's Rp.
+    rp_factor: f64,
 }
 
 fn in_range(field: &str, value: f64, lo: f64, hi: f64, why: &str) -> Result<f64, InputError> {
@@ -435,7 +454,21 @@ impl Product {
             3500.0,
             "the sublimation enthalpy of ice lies near 2840 J/g",
         )?;
-        let ice_mass_g = fill_ml * density * (1.0 - solids);
+        let unfrozen = in_range(
+            "unfrozen_water_g_per_g_solids",
+            base.unfrozen_water_g_per_g_solids.unwrap_or(0.0),
+            0.0,
+            1.0,
+            "the unfrozen water of a freeze-concentrate lies between 0 and 1 g per g of solids \
+             (sucrose about 0.2–0.25)",
+        )?;
+        let ice_mass_g = ice_mass_g(fill_ml, density, solids, unfrozen);
+        if ice_mass_g <= 0.0 {
+            return Err(InputError::new(
+                "unfrozen_water_g_per_g_solids",
+                format!("leaves no water to freeze (got {unfrozen} g/g at {solids} solids)"),
+            ));
+        }
         let ice_height_cm = ice_mass_g / ice_density / ap;
         Ok(Self {
             ap_m2: ap * 1e-4,
@@ -447,23 +480,37 @@ impl Product {
             ice_density_kg_m3: ice_density * 1e3,
             ice_conductivity: conductivity,
             enthalpy_j_kg: enthalpy * 1e3,
+            kv_factor: 1.0,
+            rp_factor: 1.0,
         })
+    }
+
+    /// The same product in a vial whose Kv is `kv_factor` × and whose dried layer resists
+    /// `rp_factor` × the nominal (factors checked by the caller: finite and positive).
+    pub fn with_factors(&self, kv_factor: f64, rp_factor: f64) -> Self {
+        Self {
+            kv_factor: self.kv_factor * kv_factor,
+            rp_factor: self.rp_factor * rp_factor,
+            ..self.clone()
+        }
     }
 
     /// Kv at chamber pressure `pc_pa`, W/(m²·K).
     pub fn kv_w_m2k(&self, pc_pa: f64) -> f64 {
         let pc_torr = pa_to_torr(pc_pa);
         let v = &self.vial;
-        cal_s_cm2_k_to_w_m2_k(
-            v.kc_cal_s_cm2_k + v.kp_cal_s_cm2_k_torr * pc_torr / (1.0 + v.kd_per_torr * pc_torr),
-        )
+        self.kv_factor
+            * cal_s_cm2_k_to_w_m2_k(
+                v.kc_cal_s_cm2_k
+                    + v.kp_cal_s_cm2_k_torr * pc_torr / (1.0 + v.kd_per_torr * pc_torr),
+            )
     }
 
     /// Rp for a dried layer `dried_m` thick, cm²·Torr·h/g.
     pub fn resistance_cgs(&self, dried_m: f64) -> f64 {
         let l_cm = dried_m * 100.0;
         let r = &self.resistance;
-        r.r0_cm2_torr_h_g + r.a1_cm_torr_h_g * l_cm / (1.0 + r.a2_per_cm * l_cm)
+        self.rp_factor * (r.r0_cm2_torr_h_g + r.a1_cm_torr_h_g * l_cm / (1.0 + r.a2_per_cm * l_cm))
     }
 
     pub fn ice_height_cm(&self) -> f64 {
@@ -477,6 +524,25 @@ impl Product {
     pub fn outer_area_cm2(&self) -> f64 {
         self.av_m2 * 1e4
     }
+}
+
+/// Ice formed in one vial, g: the fill's water less the water that never freezes,
+/// fill × ρ × (1 − ws) − Wg′ × fill × ρ × ws, for a fill in mL, a solution density ρ in g/mL,
+/// a solids mass fraction ws and Wg′ in g of unfrozen water per g of solids (the water held
+/// by the maximally freeze-concentrated solute; Roos 1993 for sucrose, about 0.2–0.25 g/g,
+/// from memory). May be negative for impossible inputs; the caller checks.
+pub fn ice_mass_g(fill_ml: f64, density_g_ml: f64, solids_fraction: f64, unfrozen: f64) -> f64 {
+    let mass = fill_ml * density_g_ml;
+    mass * (1.0 - solids_fraction) - unfrozen * mass * solids_fraction
+}
+
+/// Density of an aqueous solution holding `solids_mg_ml` of solute per mL of solution whose
+/// partial specific volume is `partial_specific_volume_ml_g`, g/mL: each mL holds the solute
+/// and 1 − c·v̄ mL of water (water's own partial volume taken as 1 mL/g), so
+/// ρ = 1 + c·(1 − v̄). Sucrose has v̄ ≈ 0.63 mL/g, giving ≈ 1.055 g/mL at 150 mg/mL
+/// (from memory).
+pub fn solution_density_g_ml(solids_mg_ml: f64, partial_specific_volume_ml_g: f64) -> f64 {
+    1.0 + solids_mg_ml / 1000.0 * (1.0 - partial_specific_volume_ml_g)
 }
 
 /// One ramp or hold of the shelf, in seconds and kelvin.
@@ -710,6 +776,15 @@ impl Conditions {
 
     pub fn kv_w_m2k(&self) -> f64 {
         self.kv_w_m2k
+    }
+
+    /// The same shelf plan, pressure and limit for another vial of the product.
+    pub fn for_product(&self, product: &Product) -> Self {
+        Self::new(product, self.plan.clone(), self.pc_pa, self.limit_k)
+    }
+
+    pub fn chamber_pressure_pa(&self) -> f64 {
+        self.pc_pa
     }
 
     pub fn equilibrium_temp_c(&self) -> f64 {
@@ -1095,6 +1170,31 @@ fn no_sublimation(c: &Conditions, shelf_k: f64, dried_share: f64, since_s: f64) 
     }
 }
 
+/// The model's figures with every moment it computed (not thinned), for callers that
+/// combine several vials.
+pub fn run_recording(
+    product: &Product,
+    conditions: &Conditions,
+    resolution: Resolution,
+) -> Result<(DryingSummary, Vec<SeriesPoint>), DryingStop> {
+    let max_k = conditions.plan.max_k();
+    if vapour_pressure_pa_unchecked(max_k) <= conditions.pc_pa {
+        return Err(no_sublimation(conditions, max_k, 0.0, 0.0));
+    }
+    let mut points = Vec::with_capacity(64);
+    let summary = integrate(product, conditions, resolution, |m| {
+        points.push(SeriesPoint {
+            time_h: m.t_s / 3600.0,
+            shelf_temp_c: k_to_c(m.shelf_k),
+            front_temp_c: k_to_c(m.state.front_k),
+            bottom_temp_c: k_to_c(m.state.bottom_k),
+            sublimation_rate_g_h: m.state.rate_kg_s * 3.6e6,
+            dried_layer_cm: m.dried_m * 100.0,
+        })
+    })?;
+    Ok((summary, points))
+}
+
 /// The model's figures without a series: the cheap form for grids and searches.
 pub fn run(product: &Product, conditions: &Conditions) -> Result<DryingSummary, DryingStop> {
     run_at(product, conditions, Resolution::default())
@@ -1195,7 +1295,7 @@ pub fn simulate_at(
 }
 
 /// At most `max` of `moments`, evenly spread, always keeping the first and the last.
-fn downsample(moments: &[Moment], max: usize) -> impl Iterator<Item = &Moment> {
+pub(crate) fn downsample<T>(moments: &[T], max: usize) -> impl Iterator<Item = &T> {
     let stride = moments.len().div_ceil(max.saturating_sub(1).max(1)).max(1);
     let last = moments.len().saturating_sub(1);
     moments
@@ -1278,6 +1378,7 @@ pub(crate) mod tests {
             fill_volume_ml: 4.0,
             solids_mass_fraction: 0.05,
             solution_density_g_ml: None,
+            unfrozen_water_g_per_g_solids: None,
             vial: tubing_vial_10ml(),
             resistance: Resistance {
                 r0_cm2_torr_h_g: 1.4,
@@ -1319,6 +1420,38 @@ pub(crate) mod tests {
         let r = simulate(&at(-25.0, 100.0)).unwrap();
         assert_relative_eq!(r.ice_mass_g, 3.8, max_relative = 1e-12);
         assert_relative_eq!(r.ice_height_cm, 3.8 / 0.917 / 3.80, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn the_ice_is_the_water_less_what_never_freezes() {
+        // Mass balance: fill mass = solids + unfrozen water + ice. Sucrose holds about
+        // 0.2–0.25 g of unfrozen water per g (Roos 1993; Ablett, Izzard & Lillford 1992,
+        // from memory): 0.2 used here. Density of 150 mg/mL sucrose from its partial
+        // specific volume 0.63 mL/g (from memory): 1 + 0.150 × 0.37 = 1.0555 g/mL.
+        let density = solution_density_g_ml(150.0, 0.63);
+        assert_relative_eq!(density, 1.0555, max_relative = 1e-12);
+        let fill_ml = 3.0;
+        let solids = 0.150 / density;
+        let ice = ice_mass_g(fill_ml, density, solids, 0.2);
+        let solids_g = fill_ml * 0.150;
+        assert_relative_eq!(
+            ice + solids_g + 0.2 * solids_g,
+            fill_ml * density,
+            max_relative = 1e-12
+        );
+        let mut base = sucrose_5_percent();
+        base.fill_volume_ml = fill_ml;
+        base.solids_mass_fraction = solids;
+        base.solution_density_g_ml = Some(density);
+        base.unfrozen_water_g_per_g_solids = Some(0.2);
+        let r = simulate(&PrimaryDryingInput::constant(&base, -25.0, 100.0)).unwrap();
+        assert_relative_eq!(r.ice_mass_g, ice, max_relative = 1e-12);
+        // The older reading (density 1, all water frozen) is off by more than 2 %.
+        let naive = fill_ml * (1.0 - 0.150);
+        assert!((naive - ice).abs() / ice > 0.02, "{naive} g vs {ice} g");
+        base.unfrozen_water_g_per_g_solids = Some(5.0);
+        let err = simulate(&PrimaryDryingInput::constant(&base, -25.0, 100.0)).unwrap_err();
+        assert_eq!(err.field, "unfrozen_water_g_per_g_solids");
     }
 
     #[test]
@@ -1661,6 +1794,14 @@ pub(crate) mod tests {
                 json!({"sublimation_enthalpy_j_g": 51_000.0}),
             ),
             ("max_product_temp_c", json!({"max_product_temp_c": 12.0})),
+            (
+                "unfrozen_water_g_per_g_solids",
+                json!({"unfrozen_water_g_per_g_solids": -0.1}),
+            ),
+            (
+                "solution_density_g_ml",
+                json!({"solution_density_g_ml": 2.5}),
+            ),
             ("shelf_temp_c", json!({"shelf_temp_c": 500.0})),
             ("shelf_temp_c", json!({"shelf_temp_c": null})),
             (

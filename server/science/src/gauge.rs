@@ -21,18 +21,18 @@
 //!   pressure, and its composition is the ratio of the two inflows in moles, as though
 //!   both left the chamber alike (a stand-in for the real flows to condenser and pump).
 //! - The nitrogen bleed is constant and sized so that y equals `water_fraction_at_peak`
-//!   (0.95 by default) at the peak sublimation rate (an assumption; common practice, no
-//!   source). Because every vial of the batch is taken as the one modelled, the size of
-//!   the batch cancels.
-//! - All vials finish together, so the Pirani falls at once when the modelled vial runs
-//!   out of ice. In a real batch, edge vials finish first and the slowest vials last, so
-//!   the fall is spread out and the meeting point comes when the last vials are done.
+//!   (0.95 by default) at the load's peak sublimation rate (an assumption; common practice,
+//!   no source). The load's rate is that of one average vial of the batch
+//!   ([`crate::batch`]); the vial count cancels.
+//! - The load finishes class by class: as each class of vials runs out of ice the water
+//!   share falls, so the Pirani falls from the first vials' end to the last's and meets
+//!   the manometer when the slowest class is dry. Nothing is added after the model's end.
 //! - Between the points of a trace the readings are taken as varying linearly (a chart's
 //!   straight lines).
 
 use serde::{Deserialize, Serialize};
 
-use crate::drying::PrimaryDryingResult;
+use crate::batch::BatchResult;
 use crate::error::{finite, positive, InputError};
 
 /// Pirani reading in pure water vapour over the true pressure, for a gauge calibrated for
@@ -43,17 +43,13 @@ pub const PIRANI_WATER_FACTOR: f64 = 1.6;
 /// (an assumption; common practice, no source).
 pub const DEFAULT_WATER_FRACTION_AT_PEAK: f64 = 0.95;
 
-/// How long after the last ice the trace's final, all-nitrogen point lies, as a share of
-/// the drying time.
-pub const AFTER_DRYING_SHARE: f64 = 0.05;
-
 /// Default agreement between the gauges, as a share of the manometer reading, taken as the
 /// end of primary drying (common practice, no source).
 pub const DEFAULT_TOLERANCE_SHARE: f64 = 0.02;
 
-const CAUTION: &str = "An end of primary drying read from a model of one vial, to support \
-    qualified judgement; a real batch finishes over a spread of times, and the end must be \
-    confirmed on the dryer.";
+const CAUTION: &str = "An end of primary drying read from a model of the batch's vial \
+    classes, to support qualified judgement; the real spread of a load is wider than a few \
+    classes, and the end must be confirmed on the dryer.";
 
 /// The caution that goes with every end-of-drying estimate.
 pub fn caution() -> &'static str {
@@ -80,12 +76,11 @@ pub fn pirani_reading_mtorr(
     Ok(reading(p, y))
 }
 
-/// The two gauges through a simulated primary drying at `chamber_pressure_mtorr` (the
-/// pressure the simulation was run at), one point per series point, and a final point
-/// [`AFTER_DRYING_SHARE`] of the drying time after the last ice, where the gas is all
-/// nitrogen and the gauges agree.
+/// The two gauges through the simulated primary drying of a batch at
+/// `chamber_pressure_mtorr` (the pressure it was run at), one point per moment of the
+/// load's rate, ending when the last class runs out of ice.
 pub fn pirani_trace(
-    result: &PrimaryDryingResult,
+    batch: &BatchResult,
     chamber_pressure_mtorr: f64,
     water_fraction_at_peak: f64,
 ) -> Result<Vec<PiraniPoint>, InputError> {
@@ -97,21 +92,17 @@ pub fn pirani_trace(
             "must be greater than zero: water fills the chamber while ice sublimes",
         ));
     }
-    let peak_rate = positive(
-        "peak_sublimation_rate_g_h",
-        result.summary.peak_sublimation_rate_g_h,
-    )?;
-    let drying_h = positive("drying_time_h", result.summary.drying_time_h)?;
-    if result.series.is_empty() {
-        return Err(InputError::new("series", "has no points to follow"));
+    let peak_rate = positive("peak_mean_rate_g_h", batch.peak_mean_rate_g_h)?;
+    if batch.rate.is_empty() {
+        return Err(InputError::new("rate", "has no points to follow"));
     }
     // The bleed in moles per hour, written as the grams of water with as many moles:
     // the molar mass of water then cancels from y.
     let bleed_g_h = peak_rate * (1.0 - y_peak) / y_peak;
-    let mut trace = Vec::with_capacity(result.series.len() + 1);
-    for (i, point) in result.series.iter().enumerate() {
-        let field = format!("series[{i}].sublimation_rate_g_h");
-        let rate = finite(&field, point.sublimation_rate_g_h)?;
+    let mut trace = Vec::with_capacity(batch.rate.len());
+    for (i, point) in batch.rate.iter().enumerate() {
+        let field = format!("rate[{i}].mean_rate_g_h");
+        let rate = finite(&field, point.mean_rate_g_h)?;
         if rate < 0.0 {
             return Err(InputError::new(
                 field,
@@ -124,16 +115,11 @@ pub fn pirani_trace(
             0.0
         };
         trace.push(PiraniPoint {
-            time_h: finite(&format!("series[{i}].time_h"), point.time_h)?,
+            time_h: finite(&format!("rate[{i}].time_h"), point.time_h)?,
             manometer_mtorr: p,
             pirani_mtorr: reading(p, y),
         });
     }
-    trace.push(PiraniPoint {
-        time_h: drying_h * (1.0 + AFTER_DRYING_SHARE),
-        manometer_mtorr: p,
-        pirani_mtorr: p,
-    });
     Ok(trace)
 }
 
@@ -197,7 +183,8 @@ fn mole_fraction(field: &str, value: f64) -> Result<f64, InputError> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::drying::{simulate, DryingBase, PrimaryDryingInput, Resistance, Vial};
+    use crate::batch::{simulate_batch, BatchSpec};
+    use crate::drying::{prepare, DryingBase, PrimaryDryingInput, Resistance, Vial};
     use approx::assert_relative_eq;
 
     const PRESSURE_MTORR: f64 = 100.0;
@@ -206,11 +193,12 @@ mod tests {
     /// resistance figures are typical values (from memory), not from one source.
     // The inner area 3.14 cm² is a vial's measured figure that happens to be near π.
     #[allow(clippy::approx_constant)]
-    fn sucrose_in_6r_vial() -> PrimaryDryingResult {
+    fn sucrose_in_6r_vial() -> BatchResult {
         let base = DryingBase {
             fill_volume_ml: 2.0,
             solids_mass_fraction: 0.05,
             solution_density_g_ml: None,
+            unfrozen_water_g_per_g_solids: None,
             vial: Vial {
                 inner_area_cm2: 3.14,
                 outer_area_cm2: 3.80,
@@ -227,10 +215,15 @@ mod tests {
             ice_conductivity_w_mk: None,
             sublimation_enthalpy_j_g: None,
         };
-        simulate(&PrimaryDryingInput::constant(&base, -25.0, PRESSURE_MTORR)).unwrap()
+        let input = PrimaryDryingInput::constant(&base, -25.0, PRESSURE_MTORR);
+        let (product, conditions) = prepare(&input).unwrap();
+        // Edge factor 1.3 (lab dryers 1.1–1.5: Rambhatla & Pikal 2003, from memory) and the
+        // default 5 % Kv spread (common practice, no source).
+        let spec = BatchSpec::new(Some(1.3), Some(0.1), None, Some(500.0)).unwrap();
+        simulate_batch(&product, &conditions, &spec).unwrap()
     }
 
-    fn trace_of(result: &PrimaryDryingResult) -> Vec<PiraniPoint> {
+    fn trace_of(result: &BatchResult) -> Vec<PiraniPoint> {
         pirani_trace(result, PRESSURE_MTORR, DEFAULT_WATER_FRACTION_AT_PEAK).unwrap()
     }
 
@@ -267,52 +260,65 @@ mod tests {
     #[test]
     fn the_pirani_reads_above_the_manometer_while_ice_sublimes() {
         // Common practice, no source: water vapour lifts the Pirani above the manometer.
-        let result = sucrose_in_6r_vial();
-        let trace = trace_of(&result);
-        assert_eq!(trace.len(), result.series.len() + 1);
-        for (p, s) in trace.iter().zip(&result.series) {
-            assert!(s.sublimation_rate_g_h > 0.0);
-            assert!(p.pirani_mtorr > p.manometer_mtorr, "{p:?}");
+        let batch = sucrose_in_6r_vial();
+        let trace = trace_of(&batch);
+        assert_eq!(trace.len(), batch.rate.len());
+        for (p, r) in trace.iter().zip(&batch.rate) {
             assert_relative_eq!(p.manometer_mtorr, PRESSURE_MTORR);
+            if r.mean_rate_g_h > 0.0 {
+                assert!(p.pirani_mtorr > p.manometer_mtorr, "{p:?}");
+            }
         }
     }
 
     #[test]
     fn at_the_peak_rate_the_water_share_is_the_one_stated() {
-        // The bleed is sized for y = 0.95 at the peak rate (assumption, no source); on a
-        // constant shelf the rate is highest at the start.
-        let result = sucrose_in_6r_vial();
-        let highest = trace_of(&result)
+        // The bleed is sized for y = 0.95 at the load's peak rate (assumption, no source).
+        let highest = trace_of(&sucrose_in_6r_vial())
             .iter()
             .map(|p| p.pirani_mtorr)
             .fold(f64::MIN, f64::max);
         assert_relative_eq!(
             highest,
             PRESSURE_MTORR * (1.0 + 0.6 * 0.95),
-            max_relative = 1e-3
+            max_relative = 1e-9
         );
     }
 
     #[test]
-    fn the_gauges_agree_after_drying_ends() {
-        // Common practice, no source: with the ice gone the gas is nitrogen again.
-        let result = sucrose_in_6r_vial();
-        let last = *trace_of(&result).last().unwrap();
-        assert_relative_eq!(last.pirani_mtorr, last.manometer_mtorr);
-        assert_relative_eq!(last.time_h, result.summary.drying_time_h * 1.05);
+    fn the_pirani_falls_from_the_first_vials_end_to_the_last() {
+        // Patel, Doen & Pikal (2010), from memory: the comparative-pressure signal falls
+        // over a span (onset to offset) as the load finishes, not at one instant.
+        let batch = sucrose_in_6r_vial();
+        let trace = trace_of(&batch);
+        let at = |t: f64| trace.iter().rfind(|p| p.time_h <= t).unwrap().pirani_mtorr;
+        let (first, last) = (batch.first_dry_h, batch.last_dry_h);
+        assert!(last > first);
+        let mid = 0.5 * (first + last);
+        assert!(
+            at(mid) < at(first * 0.999),
+            "falls after the first vials finish"
+        );
+        assert!(
+            at(mid) > PRESSURE_MTORR * 1.02,
+            "not yet met before the last vials"
+        );
+        let end = trace.last().unwrap();
+        assert_relative_eq!(end.time_h, last);
+        assert_relative_eq!(end.pirani_mtorr, end.manometer_mtorr);
     }
 
     #[test]
-    fn the_end_read_from_the_gauges_lies_just_after_the_modelled_drying_time() {
-        // The gauges meet once the ice is gone, so no earlier than the model's drying time,
-        // and within the 5 % tail of the trace (common practice, no source).
-        let result = sucrose_in_6r_vial();
-        let end = end_of_primary_drying_h(&trace_of(&result), DEFAULT_TOLERANCE_SHARE)
+    fn the_readings_meet_when_the_slowest_class_runs_out_of_ice() {
+        // The model's own end: the gauges agree once the slowest class is dry (the
+        // comparative-pressure end point, Patel, Doen & Pikal 2010, from memory).
+        let batch = sucrose_in_6r_vial();
+        let end = end_of_primary_drying_h(&trace_of(&batch), DEFAULT_TOLERANCE_SHARE)
             .unwrap()
             .unwrap();
-        let drying = result.summary.drying_time_h;
-        assert!(end >= drying, "{end} h before {drying} h");
-        assert!(end <= drying * 1.05, "{end} h long after {drying} h");
+        let slowest = batch.slowest().unwrap().drying_time_h;
+        assert_relative_eq!(end, slowest, max_relative = 1e-9);
+        assert!(end > batch.first_dry_h * 1.01);
     }
 
     #[test]
@@ -363,11 +369,8 @@ mod tests {
             assert_eq!(pirani_trace(&result, p, y).unwrap_err().field, field);
         }
         let mut empty = result.clone();
-        empty.series.clear();
-        assert_eq!(
-            pirani_trace(&empty, 100.0, 0.95).unwrap_err().field,
-            "series"
-        );
+        empty.rate.clear();
+        assert_eq!(pirani_trace(&empty, 100.0, 0.95).unwrap_err().field, "rate");
         let trace = trace_of(&result);
         for tol in [0.0, -0.02, 1.0, f64::NAN] {
             assert_eq!(
@@ -392,8 +395,10 @@ mod tests {
     fn without_a_bleed_the_chamber_is_all_water_while_ice_sublimes() {
         let result = sucrose_in_6r_vial();
         let trace = pirani_trace(&result, PRESSURE_MTORR, 1.0).unwrap();
-        for p in &trace[..trace.len() - 1] {
-            assert_relative_eq!(p.pirani_mtorr, 160.0);
+        for (p, r) in trace.iter().zip(&result.rate) {
+            if r.mean_rate_g_h > 0.0 {
+                assert_relative_eq!(p.pirani_mtorr, 160.0);
+            }
         }
         assert!(caution().contains("confirmed"));
     }

@@ -6,10 +6,12 @@
 #![deny(clippy::float_cmp)]
 
 pub mod annealing;
+pub mod batch;
 pub mod cake;
 pub mod calc;
 pub mod composition;
 pub mod design_space;
+pub mod dryer;
 pub mod drying;
 pub mod error;
 pub mod fit;

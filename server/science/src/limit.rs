@@ -62,6 +62,28 @@ pub enum LimitBasis {
     Eutectic,
 }
 
+/// What a limit guards against, which decides the product temperature it is compared with:
+/// collapse of the amorphous phase begins at the sublimation front, so the front governs;
+/// eutectic melting begins in the warmest ice, at the vial bottom, so the warmer of front and
+/// bottom governs.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LimitKind {
+    #[default]
+    Collapse,
+    Eutectic,
+}
+
+impl LimitBasis {
+    /// Whether a limit on this basis guards against collapse or eutectic melting.
+    pub fn kind(self) -> LimitKind {
+        match self {
+            Self::Eutectic => LimitKind::Eutectic,
+            _ => LimitKind::Collapse,
+        }
+    }
+}
+
 /// `product-limit` topic input. All temperatures in °C.
 #[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
@@ -69,6 +91,8 @@ pub struct ProductLimitInput {
     pub collapse_onset_c: Option<f64>,
     pub tg_prime_c: Option<f64>,
     pub tg_prime_estimate_c: Option<f64>,
+    /// The lowest Te of every component expected to crystallize, whatever its share of the
+    /// solids: a minority salt that crystallizes melts at its Te all the same.
     pub eutectic_c: Option<f64>,
     /// Margin below a measured critical temperature; 2 °C when omitted.
     pub margin_c: Option<f64>,
@@ -325,6 +349,17 @@ mod tests {
         let r = limit(json!({"tg_prime_c": -11.0, "eutectic_c": -21.1}));
         assert_eq!(r.basis, LimitBasis::Eutectic);
         assert_relative_eq!(r.max_product_temp_c, -23.1, max_relative = 1e-12);
+    }
+
+    #[test]
+    fn a_minority_salt_s_eutectic_governs_below_a_measured_collapse_onset() {
+        // The case: collapse onset −18 °C measured, NaCl Te −21.1 °C (Drebushchak et
+        // al. 2017), a minority of the solids, not a crystalline matrix; margin 2 °C.
+        let r = limit(json!({"collapse_onset_c": -18.0, "eutectic_c": -21.1, "margin_c": 2.0}));
+        assert_eq!(r.basis, LimitBasis::Eutectic);
+        assert_eq!(r.basis.kind(), LimitKind::Eutectic);
+        assert_relative_eq!(r.max_product_temp_c, -23.1, max_relative = 1e-12);
+        assert_eq!(LimitBasis::CollapseOnset.kind(), LimitKind::Collapse);
     }
 
     #[test]

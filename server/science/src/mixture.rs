@@ -20,7 +20,8 @@ pub enum MixtureMethod {
     #[default]
     Fox,
     /// Gordon & Taylor (1952), J. Appl. Chem. 2:493, multicomponent form
-    /// Tg = Σ kᵢwᵢTgᵢ / Σ kᵢwᵢ; the first component is the reference (k = 1 if not given).
+    /// Tg = Σ kᵢwᵢTgᵢ / Σ kᵢwᵢ; k is relative to a reference component with k = 1, which is
+    /// the one component given without k (at most one may be), and is named in the result.
     GordonTaylor,
     /// Couchman & Karasz (1978), Macromolecules 11:117, log form
     /// ln Tg = Σ wᵢΔCpᵢ ln Tgᵢ / Σ wᵢΔCpᵢ.
@@ -33,7 +34,7 @@ impl MixtureMethod {
         match self {
             MixtureMethod::Fox => "Fox (1956): 1/Tg = Σ wᵢ/Tgᵢ",
             MixtureMethod::GordonTaylor => {
-                "Gordon & Taylor (1952): Tg = Σ kᵢwᵢTgᵢ / Σ kᵢwᵢ (first component k = 1)"
+                "Gordon & Taylor (1952): Tg = Σ kᵢwᵢTgᵢ / Σ kᵢwᵢ (reference component k = 1)"
             }
             MixtureMethod::CouchmanKarasz => {
                 "Couchman & Karasz (1978): ln Tg = Σ wᵢΔCpᵢ ln Tgᵢ / Σ wᵢΔCpᵢ"
@@ -51,7 +52,8 @@ pub struct MixtureComponent {
     /// Mass fraction (any positive amounts; normalised when they do not sum to 1).
     pub mass_fraction: f64,
     pub tg_c: f64,
-    /// Gordon–Taylor constant relative to the first component.
+    /// Gordon–Taylor constant relative to the reference component (the one given without
+    /// k, or with k = 1).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub k: Option<f64>,
     /// Heat-capacity step at Tg, J/(g·K), for Couchman–Karasz.
@@ -88,6 +90,10 @@ pub struct MixtureTgResult {
     pub normalised: bool,
     pub fraction_sum: f64,
     pub fractions: Vec<UsedFraction>,
+    /// Gordon–Taylor: the component whose k is 1, which the other k values are relative to
+    /// (absent for the other methods, or when no component has k = 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reference: Option<String>,
 }
 
 /// A component reduced to what the equations need.
@@ -112,13 +118,10 @@ fn checked_term(
     let tg_k = celsius_to_kelvin_checked(&field("tg_c"), c.tg_c)?;
     let weight = match method {
         MixtureMethod::Fox => 1.0,
-        MixtureMethod::GordonTaylor => match (c.k, index) {
-            (Some(k), _) => positive(&field("k"), k)?,
-            (None, 0) => 1.0,
-            (None, _) => return Err(InputError::new(
-                field("k"),
-                "Gordon–Taylor needs k for every component after the first (the reference, k = 1)",
-            )),
+        MixtureMethod::GordonTaylor => match c.k {
+            Some(k) => positive(&field("k"), k)?,
+            // The reference; `gordon_taylor_reference` allows only one.
+            None => 1.0,
         },
         MixtureMethod::CouchmanKarasz => match c.delta_cp_j_gk {
             Some(cp) => positive(&field("delta_cp_j_gk"), cp)?,
@@ -156,10 +159,43 @@ fn combine(method: MixtureMethod, terms: &[Term]) -> f64 {
     }
 }
 
+/// The Gordon–Taylor reference of `components`: the one given without k, else the first
+/// with k = 1. A second component without k is refused: the reference must be explicit.
+fn gordon_taylor_reference(components: &[&MixtureComponent]) -> Result<Option<usize>, InputError> {
+    let mut without = components.iter().enumerate().filter(|(_, c)| c.k.is_none());
+    let first = without.next().map(|(i, _)| i);
+    if let (Some(r), Some((i, _))) = (first, without.next()) {
+        let name = |i: usize| {
+            let n = &components[i].name;
+            if n.is_empty() {
+                format!("components[{i}]")
+            } else {
+                n.clone()
+            }
+        };
+        return Err(InputError::new(
+            format!("components[{i}].k"),
+            format!(
+                "Gordon–Taylor takes k relative to one reference component (k = 1); {} has no \
+                 k and is the reference, so give k for {} too",
+                name(r),
+                name(i)
+            ),
+        ));
+    }
+    let unit = || {
+        components
+            .iter()
+            .position(|c| c.k.is_some_and(|k| (k - 1.0).abs() < 1e-12))
+    };
+    Ok(first.or_else(unit))
+}
+
 /// Glass transition of a mixture by `method` (see [`MixtureMethod`] for the equations and
 /// their sources). Fractions must be positive; when they do not sum to 1 they are
-/// normalised and the result says so. Gordon–Taylor needs `k` on every component but the
-/// first (reference, k = 1 when omitted); Couchman–Karasz needs `delta_cp_j_gk` on all.
+/// normalised and the result says so. Gordon–Taylor needs `k` on every component but one,
+/// the reference (k = 1), which the result names; Couchman–Karasz needs `delta_cp_j_gk` on
+/// all.
 ///
 /// ```
 /// use glasspoint_science::mixture::{mixture_tg, MixtureComponent, MixtureMethod};
@@ -181,6 +217,20 @@ pub fn mixture_tg(
         .enumerate()
         .map(|(i, c)| checked_term(method, i, c, None))
         .collect::<Result<Vec<_>, _>>()?;
+    let reference = match method {
+        MixtureMethod::GordonTaylor => {
+            let all: Vec<&MixtureComponent> = components.iter().collect();
+            gordon_taylor_reference(&all)?.map(|i| {
+                let n = &components[i].name;
+                if n.is_empty() {
+                    format!("components[{i}]")
+                } else {
+                    n.clone()
+                }
+            })
+        }
+        _ => None,
+    };
     let fraction_sum: f64 = terms.iter().map(|t| t.w).sum();
     if !fraction_sum.is_finite() {
         return Err(InputError::new(
@@ -206,6 +256,7 @@ pub fn mixture_tg(
         normalised: (fraction_sum - 1.0).abs() > SUM_TOLERANCE,
         fraction_sum,
         fractions,
+        reference,
     })
 }
 
@@ -235,6 +286,9 @@ pub fn binary_sweep(
             "steps",
             format!("must be between 1 and {MAX_SWEEP_STEPS} (got {steps})"),
         ));
+    }
+    if method == MixtureMethod::GordonTaylor {
+        gordon_taylor_reference(&[a, b])?;
     }
     let ta = checked_term(method, 0, a, Some(1.0))?;
     let tb = checked_term(method, 1, b, Some(0.0))?;
@@ -391,7 +445,12 @@ mod tests {
         let gt = |c| json!({"method": "gordon-taylor", "components": [ok.clone(), c]});
         assert_eq!(refusal(gt(with("k", json!(0.0)))), "components[1].k");
         assert_eq!(refusal(gt(with("k", json!(-1.0)))), "components[1].k");
-        assert_eq!(refusal(gt(with("k", json!(null)))), "components[1].k");
+        // Only one component may go without k: it is the reference.
+        let no_k = with("k", json!(null));
+        assert_eq!(
+            refusal(json!({"method": "gordon-taylor", "components": [no_k.clone(), no_k]})),
+            "components[1].k"
+        );
         let ck = |c| json!({"method": "couchman-karasz", "components": [ok.clone(), c]});
         assert_eq!(
             refusal(ck(with("delta_cp_j_gk", json!(0.0)))),
@@ -405,6 +464,27 @@ mod tests {
             refusal(json!({"method": "guess", "components": [ok]})),
             "method"
         );
+    }
+
+    #[test]
+    fn the_gordon_taylor_reference_is_named_not_taken_from_the_list_order() {
+        // The reference is the component without k, wherever it is listed (k = 4.7 for
+        // water against sucrose, Roos 1993, from memory; water Tg 136 K, Johari et al. 1987).
+        let mut water = part("water", 0.05, k_to_c(136.0));
+        water.k = Some(4.7);
+        let sucrose = part("sucrose", 0.95, 62.0);
+        let a = mixture_tg(
+            MixtureMethod::GordonTaylor,
+            &[water.clone(), sucrose.clone()],
+        )
+        .unwrap();
+        let b = mixture_tg(MixtureMethod::GordonTaylor, &[sucrose, water]).unwrap();
+        assert_eq!(a.reference.as_deref(), Some("sucrose"));
+        assert_relative_eq!(a.tg_k, b.tg_k, max_relative = 1e-12);
+        assert_relative_eq!(a.tg_k, 295.6561, max_relative = 1e-6);
+        assert!(a.equation.contains("reference component"));
+        let fox = mixture_tg(MixtureMethod::Fox, &[part("a", 1.0, -30.0)]).unwrap();
+        assert_eq!(fox.reference, None);
     }
 
     #[test]

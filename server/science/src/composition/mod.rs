@@ -5,7 +5,13 @@
 //! of [`crate::mixture`] (Fox 1956 by default) applied to each component's own Tg'. This
 //! is an approximation: it ignores differences in the unfrozen water each component holds.
 //!
-//! - Components expected to crystallize are left out and reported.
+//! - Components expected to crystallize are left out and reported. A crystallizer that is a
+//!   minority of the solids beside an amorphous phase (below [`MINORITY_SHARE`]) is shown
+//!   both ways: crystallized (left out) and left amorphous (counted, where its Tg′ is
+//!   known), since salts and minor crystallizers often stay amorphous in a sugar matrix and
+//!   pull Tg′ down. The lower, conservative estimate is the one given; without the value
+//!   the estimate is flagged as possibly too warm. A measured Tg′ overrides either.
+//! - Gordon–Taylor needs k on every component; the reference is the one with k = 1.
 //! - Components that *may* crystallize are counted as amorphous — the state that lowers
 //!   Tg' when crystallization is incomplete — and the estimate is flagged, with the value
 //!   it would take if they did crystallize beside it.
@@ -17,6 +23,10 @@ use serde::{Deserialize, Serialize};
 use crate::error::{finite, positive, InputError};
 use crate::limit::frozen_state_temp_c;
 use crate::mixture::{mixture_tg, MixtureComponent, MixtureMethod};
+
+/// A crystallizing component below this share of the solids, beside an amorphous phase, may
+/// stay amorphous and is shown both ways (common practice, no source).
+pub const MINORITY_SHARE: f64 = 0.5;
 
 /// Default share of the solids that may lack values before the estimate is refused.
 pub const DEFAULT_MAX_MISSING_SHARE: f64 = 0.10;
@@ -45,7 +55,8 @@ pub struct FormulationComponent {
     pub behaviour: FreezingBehaviour,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub tg_prime_c: Option<f64>,
-    /// Gordon–Taylor weight relative to the first included component (k = 1 if omitted there).
+    /// Gordon–Taylor weight relative to the reference component, which has k = 1. Every
+    /// component needs its k under Gordon–Taylor.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub k: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -116,6 +127,17 @@ pub struct FormulationEstimate {
     pub missing_share: f64,
     /// The estimate if the `may_crystallize` components did crystallize.
     pub estimate_if_crystallized_c: Option<f64>,
+    /// Minority crystallizers shown both ways: the estimate with them left amorphous
+    /// (those with a Tg′), beside the one with them crystallized.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub estimate_if_left_amorphous_c: Option<f64>,
+    /// The estimate with minority crystallizers crystallized (left out).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub estimate_with_minority_crystallized_c: Option<f64>,
+    /// True when a minority crystallizer has no Tg′, so the estimate with it left amorphous
+    /// cannot be made and the given one may be too warm.
+    #[serde(default)]
+    pub may_be_too_warm: bool,
     pub reasoning: Vec<String>,
     pub caution: String,
 }
@@ -143,16 +165,12 @@ fn check_component(i: usize, c: &FormulationComponent) -> Result<(), InputError>
     Ok(())
 }
 
-/// The field a component lacks for `method`, if any. `is_reference` lets the first
-/// included component go without k under Gordon–Taylor.
-fn lacking(
-    method: MixtureMethod,
-    c: &FormulationComponent,
-    is_reference: bool,
-) -> Option<&'static str> {
+/// The field a component lacks for `method`, if any. Gordon–Taylor needs k on every
+/// component: no component is silently taken as the reference.
+fn lacking(method: MixtureMethod, c: &FormulationComponent) -> Option<&'static str> {
     match (c.tg_prime_c, method) {
         (None, _) => Some("tg_prime_c"),
-        (_, MixtureMethod::GordonTaylor) if c.k.is_none() && !is_reference => Some("k"),
+        (_, MixtureMethod::GordonTaylor) if c.k.is_none() => Some("k"),
         (_, MixtureMethod::CouchmanKarasz) if c.delta_cp_j_gk.is_none() => Some("delta_cp_j_gk"),
         _ => None,
     }
@@ -186,12 +204,7 @@ fn if_crystallized(
     let mut line = "Components that may crystallize are counted as amorphous, the case that \
                     depresses Tg' when crystallization is incomplete; the estimate is flagged."
         .to_string();
-    // Under Gordon–Taylor the dropped component may have been the reference (k = 1);
-    // recompute only when the rest still carry k.
-    let recompute = !stays.is_empty()
-        && (method != MixtureMethod::GordonTaylor
-            || stays.iter().skip(1).all(|(c, _)| c.k.is_some()));
-    if !recompute {
+    if stays.is_empty() {
         return Ok((line, None));
     }
     let alt = mix(method, &stays)?;
@@ -199,6 +212,13 @@ fn if_crystallized(
         " If they crystallize fully, the estimate is {alt:.1} °C."
     ));
     Ok((line, Some(alt)))
+}
+
+fn names(list: &[&(&FormulationComponent, f64, String)]) -> String {
+    list.iter()
+        .map(|(_, _, n)| n.as_str())
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 /// Estimated Tg' of a formulation from its composition (module docs for the rules).
@@ -229,21 +249,36 @@ pub fn formulation_estimate(
     }
     let mut reasoning = vec![format!("The solids total {solids:.3} mg/mL.")];
     let (mut used, mut excluded, mut missing) = (Vec::new(), Vec::new(), Vec::new());
+    let mut minority = Vec::new();
+    let has_amorphous = input
+        .components
+        .iter()
+        .any(|c| c.behaviour != FreezingBehaviour::Crystallizes);
     for (i, c) in input.components.iter().enumerate() {
         let share = c.concentration_mg_ml / solids;
         let name = name_of(c, i);
         if c.behaviour == FreezingBehaviour::Crystallizes {
-            reasoning.push(format!(
-                "{name} ({:.1} % of solids) is expected to crystallize and is left out of the \
-                 amorphous phase; its eutectic, not a Tg', describes it.",
-                share * 100.0
-            ));
+            if has_amorphous && share < MINORITY_SHARE {
+                reasoning.push(format!(
+                    "{name} ({:.1} % of solids) is expected to crystallize, but as a minority \
+                     beside an amorphous phase it may stay amorphous and pull Tg' down: the \
+                     estimate is shown both ways.",
+                    share * 100.0
+                ));
+                minority.push((c, share, name.clone()));
+            } else {
+                reasoning.push(format!(
+                    "{name} ({:.1} % of solids) is expected to crystallize and is left out of \
+                     the amorphous phase; its eutectic, not a Tg', describes it.",
+                    share * 100.0
+                ));
+            }
             excluded.push(ShareOfSolids {
                 name,
                 material_id: c.material_id,
                 solid_fraction: share,
             });
-        } else if let Some(lacks) = lacking(method, c, used.is_empty()) {
+        } else if let Some(lacks) = lacking(method, c) {
             reasoning.push(format!(
                 "{name} ({:.1} % of solids) has no {} value and is left out.",
                 share * 100.0,
@@ -285,6 +320,9 @@ pub fn formulation_estimate(
         missing,
         missing_share,
         estimate_if_crystallized_c: None,
+        estimate_if_left_amorphous_c: None,
+        estimate_with_minority_crystallized_c: None,
+        may_be_too_warm: false,
         reasoning,
         caution: CAUTION.into(),
     };
@@ -309,6 +347,17 @@ pub fn formulation_estimate(
     }
     let parts: Vec<_> = used.iter().map(|(c, s, _)| (*c, *s)).collect();
     let estimate = mix(method, &parts)?;
+    if method == MixtureMethod::GordonTaylor {
+        let weights = used
+            .iter()
+            .map(|(c, _, name)| format!("{name} k = {}", c.k.unwrap_or(f64::NAN)))
+            .collect::<Vec<_>>()
+            .join(", ");
+        result.reasoning.push(format!(
+            "Gordon–Taylor weights ({weights}) are relative to the reference component, the \
+             one with k = 1; every component carries its own k."
+        ));
+    }
     result.reasoning.push(format!(
         "{} over the Tg' of the {} amorphous component(s), weighted by their share of the \
          amorphous solids, gives {estimate:.1} °C.",
@@ -331,6 +380,36 @@ pub fn formulation_estimate(
         let (line, alt) = if_crystallized(method, &parts)?;
         result.reasoning.push(line);
         result.estimate_if_crystallized_c = alt;
+    }
+    let mut estimate = estimate;
+    if !minority.is_empty() {
+        flagged = true;
+        let (with_values, without): (Vec<_>, Vec<_>) = minority
+            .iter()
+            .partition(|(c, _, _)| lacking(method, c).is_none());
+        let crystallized = estimate;
+        result.estimate_with_minority_crystallized_c = Some(crystallized);
+        if !with_values.is_empty() {
+            let mut all = parts.clone();
+            all.extend(with_values.iter().map(|(c, s, _)| (*c, *s)));
+            let amorphous = mix(method, &all)?;
+            result.estimate_if_left_amorphous_c = Some(amorphous);
+            estimate = crystallized.min(amorphous);
+            result.reasoning.push(format!(
+                "With {} crystallized the estimate is {crystallized:.1} °C; left amorphous, \
+                 {amorphous:.1} °C. The lower, {estimate:.1} °C, is given: it holds whichever \
+                 happens, until a measured Tg' says otherwise.",
+                names(&with_values)
+            ));
+        }
+        if !without.is_empty() {
+            result.may_be_too_warm = true;
+            result.reasoning.push(format!(
+                "{} has no Tg' value, so the estimate with it left amorphous cannot be made: \
+                 the estimate may be too warm. Measure Tg' of the formulation.",
+                names(&without)
+            ));
+        }
     }
     result.estimate_tg_prime_c = Some(estimate);
     result.status = if flagged {
@@ -355,194 +434,4 @@ pub fn calc_formulation_estimate(
 }
 
 #[cfg(test)]
-mod tests {
-    use super::*;
-    use approx::assert_relative_eq;
-    use serde_json::json;
-
-    fn part(
-        name: &str,
-        mg_ml: f64,
-        behaviour: FreezingBehaviour,
-        tg: Option<f64>,
-    ) -> FormulationComponent {
-        FormulationComponent {
-            name: name.into(),
-            material_id: None,
-            concentration_mg_ml: mg_ml,
-            behaviour,
-            tg_prime_c: tg,
-            k: None,
-            delta_cp_j_gk: None,
-        }
-    }
-
-    fn estimate_with(
-        components: Vec<FormulationComponent>,
-        method: MixtureMethod,
-        max_missing_share: f64,
-    ) -> Result<FormulationEstimate, InputError> {
-        formulation_estimate(&FormulationEstimateInput {
-            components,
-            method,
-            max_missing_share,
-        })
-    }
-
-    fn estimate(components: Vec<FormulationComponent>) -> FormulationEstimate {
-        estimate_with(components, MixtureMethod::Fox, DEFAULT_MAX_MISSING_SHARE).unwrap()
-    }
-
-    use FreezingBehaviour::{Amorphous, Crystallizes, MayCrystallize};
-
-    #[test]
-    fn a_single_excipient_reproduces_its_own_tg_prime() {
-        // Sucrose Tg' −32 °C (literature value, from memory).
-        let r = estimate(vec![part("sucrose", 50.0, Amorphous, Some(-32.0))]);
-        assert_eq!(r.status, EstimateStatus::Estimated);
-        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
-        assert_relative_eq!(r.solids_mg_ml, 50.0);
-    }
-
-    #[test]
-    fn sucrose_with_trehalose_lies_between_their_tg_primes() {
-        // Tg' sucrose −32 °C, trehalose −29.5 °C (literature value, from memory).
-        let r = estimate(vec![
-            part("sucrose", 30.0, Amorphous, Some(-32.0)),
-            part("trehalose", 20.0, Amorphous, Some(-29.5)),
-        ]);
-        let t = r.estimate_tg_prime_c.unwrap();
-        assert!(t > -32.0 && t < -29.5, "{t}");
-        assert_relative_eq!(r.included[1].amorphous_fraction, 0.4, max_relative = 1e-12);
-    }
-
-    #[test]
-    fn a_crystallizing_bulking_agent_is_left_out_and_reported() {
-        // Mannitol crystallizes (literature); sucrose Tg' −32 °C.
-        let r = estimate(vec![
-            part("mannitol", 40.0, Crystallizes, Some(-33.0)),
-            part("sucrose", 10.0, Amorphous, Some(-32.0)),
-        ]);
-        assert_eq!(r.status, EstimateStatus::Estimated);
-        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
-        assert_relative_eq!(
-            r.excluded_crystallizing[0].solid_fraction,
-            0.8,
-            max_relative = 1e-12
-        );
-        assert_relative_eq!(r.included[0].solid_fraction, 0.2, max_relative = 1e-12);
-        assert_relative_eq!(r.included[0].amorphous_fraction, 1.0, max_relative = 1e-12);
-    }
-
-    #[test]
-    fn a_component_that_may_crystallize_is_counted_and_flagged() {
-        // Glycine amorphous Tg' ≈ −37 to −40 °C; sucrose −32 °C (literature value, from memory).
-        let r = estimate(vec![
-            part("sucrose", 40.0, Amorphous, Some(-32.0)),
-            part("glycine", 10.0, MayCrystallize, Some(-38.0)),
-        ]);
-        assert_eq!(r.status, EstimateStatus::Flagged);
-        assert!(r.estimate_tg_prime_c.unwrap() < -32.0);
-        assert_relative_eq!(
-            r.estimate_if_crystallized_c.unwrap(),
-            -32.0,
-            max_relative = 1e-12
-        );
-        assert!(r.reasoning.iter().any(|l| l.contains("may crystallize")));
-    }
-
-    #[test]
-    fn a_small_missing_share_flags_the_estimate() {
-        let r = estimate(vec![
-            part("sucrose", 50.0, Amorphous, Some(-32.0)),
-            part("polysorbate 80", 0.2, Amorphous, None),
-        ]);
-        assert_eq!(r.status, EstimateStatus::Flagged);
-        assert_eq!(r.missing[0].lacks, "tg_prime_c");
-        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -32.0, max_relative = 1e-12);
-    }
-
-    #[test]
-    fn a_large_missing_share_refuses_the_estimate() {
-        let r = estimate(vec![
-            part("sucrose", 50.0, Amorphous, Some(-32.0)),
-            part("unknown polymer", 10.0, Amorphous, None),
-        ]);
-        assert_eq!(r.status, EstimateStatus::Refused);
-        assert!(r.estimate_tg_prime_c.is_none());
-        assert!(r.reasoning.iter().any(|l| l.contains("more than")));
-    }
-
-    #[test]
-    fn an_all_crystalline_formulation_has_no_tg_prime_estimate() {
-        let r = estimate(vec![part("mannitol", 50.0, Crystallizes, None)]);
-        assert_eq!(r.status, EstimateStatus::Refused);
-        assert!(r.reasoning.iter().any(|l| l.contains("eutectic")));
-    }
-
-    #[test]
-    fn gordon_taylor_lets_the_first_included_component_go_without_k() {
-        let mut trehalose = part("trehalose", 25.0, Amorphous, Some(-29.5));
-        trehalose.k = Some(1.0);
-        let sucrose = part("sucrose", 25.0, Amorphous, Some(-32.0));
-        let gt = MixtureMethod::GordonTaylor;
-        let r = estimate_with(vec![sucrose.clone(), trehalose.clone()], gt, 0.0).unwrap();
-        // Equal weights and fractions: the arithmetic mean (hand calculation).
-        assert_relative_eq!(r.estimate_tg_prime_c.unwrap(), -30.75, max_relative = 1e-12);
-        trehalose.k = None;
-        let r = estimate_with(vec![sucrose, trehalose], gt, 0.6).unwrap();
-        assert_eq!(r.missing[0].lacks, "k");
-        assert_eq!(r.status, EstimateStatus::Flagged);
-    }
-
-    #[test]
-    fn bad_compositions_are_refused_with_their_field_named() {
-        let c = |conc: f64, tg: f64| json!({"concentration_mg_ml": conc, "behaviour": "amorphous", "tg_prime_c": tg});
-        let mut bad_k = c(10.0, -32.0);
-        bad_k["k"] = json!(0.0);
-        let one = |c| json!({ "components": [c] });
-        let cases = [
-            (json!({"components": []}), "components"),
-            (one(c(0.0, -32.0)), "components[0].concentration_mg_ml"),
-            (
-                json!({"components": [c(1.0, -32.0), c(-1.0, -32.0)]}),
-                "components[1].concentration_mg_ml",
-            ),
-            (one(c(10.0, 62.0)), "components[0].tg_prime_c"),
-            (one(c(10.0, -300.0)), "components[0].tg_prime_c"),
-            (
-                one(json!({"concentration_mg_ml": 1.0, "behaviour": "melts"})),
-                "components[0].behaviour",
-            ),
-            (one(bad_k), "components[0].k"),
-            (
-                json!({"components": [c(1.0, -32.0)], "max_missing_share": 1.5}),
-                "max_missing_share",
-            ),
-        ];
-        for (input, field) in cases {
-            assert_eq!(calc_formulation_estimate(input).unwrap_err().field, field);
-        }
-        // JSON cannot carry NaN or infinity: the typed function is checked directly.
-        let typed = |conc: f64, tg: f64| {
-            let components = vec![part("s", conc, Amorphous, Some(tg))];
-            estimate_with(components, MixtureMethod::Fox, 0.1)
-                .unwrap_err()
-                .field
-        };
-        assert_eq!(typed(f64::NAN, -32.0), "components[0].concentration_mg_ml");
-        assert_eq!(typed(1.0, f64::INFINITY), "components[0].tg_prime_c");
-    }
-
-    #[test]
-    fn the_json_topic_defaults_to_fox_and_a_ten_percent_missing_share() {
-        let out = calc_formulation_estimate(json!({"components": [
-            {"name": "sucrose", "material_id": 7, "concentration_mg_ml": 50.0, "behaviour": "amorphous", "tg_prime_c": -32.0},
-            {"name": "polysorbate 80", "concentration_mg_ml": 5.0, "behaviour": "amorphous"}
-        ]}))
-        .unwrap();
-        assert_eq!(out["method"], "fox");
-        assert_eq!(out["status"], "flagged");
-        assert_eq!(out["included"][0]["material_id"], 7);
-    }
-}
+mod tests;
