@@ -368,6 +368,39 @@ pub fn solution_density(f: &Formulation, materials: &[Material]) -> f64 {
     1.0 + excess
 }
 
+/// The team's rules for derived values: its safety margin, and which results count.
+#[derive(Debug, Clone, Copy)]
+pub struct TeamBasis {
+    pub margin_c: f64,
+    /// Whether results nobody has reviewed yet may be used.
+    pub allow_unreviewed: bool,
+}
+
+impl TeamBasis {
+    /// The results a derived limit may rest on: never a rejected one, and only reviewed
+    /// ones when the team says so.
+    pub fn usable(&self, measurements: &[Measurement]) -> Vec<Measurement> {
+        measurements
+            .iter()
+            .filter(|m| match m.review_state {
+                ReviewState::Rejected => false,
+                ReviewState::Recorded => self.allow_unreviewed,
+                ReviewState::Reviewed => true,
+            })
+            .cloned()
+            .collect()
+    }
+}
+
+/// The team's settings over the server's default margin.
+pub async fn team_basis(store: &Store, server_margin_c: f64) -> Result<TeamBasis, AppError> {
+    let settings = store.team_settings().await?;
+    Ok(TeamBasis {
+        margin_c: settings.margin_c.unwrap_or(server_margin_c),
+        allow_unreviewed: settings.allow_unreviewed,
+    })
+}
+
 /// Unfrozen water per g of all solids: the amorphous solids' share × Wg′.
 pub fn unfrozen_water(f: &Formulation) -> f64 {
     let amorphous: f64 = f
@@ -519,9 +552,10 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
     let cycle = store.get_cycle(link.cycle_id).await?;
     let formulation = store.get_formulation(link.formulation_id).await?;
     let container = store.get_container(link.container_id).await?;
-    let measurements = store.measurements_of(formulation.id).await?;
+    let basis = team_basis(store, margin_c).await?;
+    let measurements = basis.usable(&store.measurements_of(formulation.id).await?);
     let materials = store.list_materials().await?;
-    let derived = derive(&formulation, &measurements, &materials, margin_c);
+    let derived = derive(&formulation, &measurements, &materials, basis.margin_c);
     let resistance = resistance_of(store, &formulation).await?;
     let base = drying_base(
         &formulation,

@@ -324,9 +324,58 @@ pub fn unprocessable(mut r: Response) -> Response {
     r
 }
 
+/// One result a derived limit may rest on, with its review.
+pub struct BasisRow {
+    pub m: Measurement,
+    pub used: bool,
+    /// "Reviewed by … at … UTC", "not yet reviewed", or why it is left out.
+    pub review: String,
+}
+
+/// Which results the derived values rest on, and whether each is reviewed.
+fn rests_on(
+    all: &[Measurement],
+    used: &[Measurement],
+    signatures: &[crate::storage::Signature],
+    allow_unreviewed: bool,
+) -> Vec<BasisRow> {
+    all.iter()
+        .filter(|m| m.kind != MeasurementKind::CakeTg)
+        .map(|m| {
+            let used_here = used.iter().any(|u| u.id == m.id);
+            let signed = signatures
+                .iter()
+                .find(|s| s.entity_id == m.id && s.version <= m.version);
+            let review = match (m.review_state, signed) {
+                (ReviewState::Reviewed, Some(s)) => {
+                    format!("reviewed by {} at {} UTC", s.full_name, s.signed_at_utc())
+                }
+                (ReviewState::Reviewed, None) => "reviewed".to_string(),
+                (ReviewState::Rejected, Some(s)) => {
+                    format!("rejected by {} ({}): left out", s.full_name, s.reason)
+                }
+                (ReviewState::Rejected, None) => "rejected: left out".to_string(),
+                (ReviewState::Recorded, _) if allow_unreviewed => {
+                    "not yet reviewed (the team allows it)".to_string()
+                }
+                (ReviewState::Recorded, _) => {
+                    "not yet reviewed: left out by the team's setting".to_string()
+                }
+            };
+            BasisRow {
+                m: m.clone(),
+                used: used_here,
+                review,
+            }
+        })
+        .collect()
+}
+
 #[derive(Template)]
 #[template(path = "formulations/detail.html")]
 struct DetailPage {
+    signatures: Vec<super::records::SignatureView>,
+    rests_on: Vec<BasisRow>,
     f: Formulation,
     cycles: Vec<super::cycles::LinkRow>,
     resistance: DryLayerResistance,
@@ -377,8 +426,13 @@ async fn detail(
     let f = state.store.get_formulation(id).await?;
     let measurements = state.store.measurements_of(id).await?;
     let materials = state.store.list_materials().await?;
-    let (margin_c, margin_error) = margin_from(&q.margin_c, state.config.margin_c);
-    let derived = crate::derive::derive(&f, &measurements, &materials, margin_c);
+    let basis = crate::derive::team_basis(&state.store, state.config.margin_c).await?;
+    let (margin_c, margin_error) = margin_from(&q.margin_c, basis.margin_c);
+    let used = basis.usable(&measurements);
+    let derived = crate::derive::derive(&f, &used, &materials, margin_c);
+    let signatures = super::records::signature_views(&state, Entity::Formulation, id).await?;
+    let reviewers = state.store.signatures_of_kind(Entity::Measurement).await?;
+    let rests_on = rests_on(&measurements, &used, &reviewers, basis.allow_unreviewed);
     let cycles =
         super::cycles::assess_all(&state, state.store.links_of_formulation(id).await?).await?;
     let resistance = crate::derive::resistance_of(&state.store, &f).await?;
@@ -411,7 +465,9 @@ async fn detail(
             q.margin_c.trim().to_string()
         },
         margin_error,
-        team_margin: crate::web::fmt::trim(state.config.margin_c),
+        team_margin: crate::web::fmt::trim(basis.margin_c),
+        signatures,
+        rests_on,
         cycles,
         resistance,
         f,
@@ -640,8 +696,9 @@ async fn compare(
             }
             Err(e) => return Err(e),
         };
-        let ms = state.store.measurements_of(*id).await?;
-        let d = crate::derive::derive(&f, &ms, &materials, state.config.margin_c);
+        let basis = crate::derive::team_basis(&state.store, state.config.margin_c).await?;
+        let ms = basis.usable(&state.store.measurements_of(*id).await?);
+        let d = crate::derive::derive(&f, &ms, &materials, basis.margin_c);
         let v = super::derived_view::view(&d);
         let summary = |kind: MeasurementKind| {
             let values: Vec<f64> = ms

@@ -39,7 +39,6 @@ struct FormPage {
     errors: FieldErrors,
     kinds: Vec<(&'static str, &'static str)>,
     methods: Vec<(&'static str, &'static str)>,
-    review_states: Vec<(&'static str, &'static str)>,
 }
 
 fn today() -> time::Date {
@@ -73,7 +72,6 @@ async fn form_page(
             MeasurementMethod::code,
             MeasurementMethod::label,
         ),
-        review_states: options(ReviewState::ALL, ReviewState::code, ReviewState::label),
     }))
 }
 

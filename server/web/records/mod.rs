@@ -13,6 +13,7 @@ use crate::domain::Entity;
 use crate::{AppError, AppState};
 
 pub use audit::{audit_filter, AuditQuery};
+pub use history::{signature_views, SignatureView};
 
 pub fn router() -> Router<AppState> {
     Router::new()
