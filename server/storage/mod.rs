@@ -94,9 +94,28 @@ impl Store {
     pub async fn migrate(&self) -> Result<(), AppError> {
         match self {
             Store::Sqlite(pool) => SQLITE_MIGRATIONS.run(pool).await?,
+            // An application role without CREATE rights (see the README) can still start
+            // once the owner has applied every migration.
+            Store::Postgres(pool) if self.all_applied(&POSTGRES_MIGRATIONS).await => {}
             Store::Postgres(pool) => POSTGRES_MIGRATIONS.run(pool).await?,
         }
         library::install_if_missing(self).await
+    }
+
+    /// Whether every migration of `migrator` is recorded as applied (false when the
+    /// bookkeeping table is missing or cannot be read).
+    async fn all_applied(&self, migrator: &sqlx::migrate::Migrator) -> bool {
+        let applied: Result<Vec<(i64,)>, sqlx::Error> = on_pool!(self, pool => {
+            sqlx::query_as("SELECT version FROM _sqlx_migrations WHERE success")
+                .fetch_all(pool)
+                .await
+        });
+        match applied {
+            Ok(rows) => migrator
+                .iter()
+                .all(|m| rows.iter().any(|(v,)| *v == m.version)),
+            Err(_) => false,
+        }
     }
 
     /// Whether the database answers.

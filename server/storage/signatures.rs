@@ -27,8 +27,14 @@ pub struct Signature {
 }
 
 impl Signature {
+    /// The signing time in UTC to the second, for pages.
     pub fn signed_at_utc(&self) -> String {
-        super::audit::format_time(self.signed_at)
+        self.signed_at
+            .to_offset(time::UtcOffset::UTC)
+            .format(&time::macros::format_description!(
+                "[year]-[month]-[day] [hour]:[minute]:[second]"
+            ))
+            .unwrap_or_default()
     }
 }
 
