@@ -16,3 +16,4 @@ mod forms;
 mod pages;
 mod science_pages;
 mod storage;
+mod team_pages;

@@ -24,6 +24,8 @@ pub fn router() -> Router<AppState> {
         .route("/admin/tokens/{id}/revoke", post(revoke_token))
         .route("/admin/settings", get(settings).post(save_settings))
         .route("/admin/audit-check", get(audit_check))
+        // Account and settings forms are small.
+        .layer(axum::extract::DefaultBodyLimit::max(16 * 1024))
 }
 
 #[derive(Deserialize, Default, Clone)]

@@ -18,7 +18,12 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/login", get(form).post(sign_in))
         .route("/logout", post(sign_out))
+        // A name and a password: nothing larger is ever needed here.
+        .layer(axum::extract::DefaultBodyLimit::max(SIGN_IN_BODY_LIMIT))
 }
+
+/// Largest sign-in or sign-out request body, in bytes.
+pub const SIGN_IN_BODY_LIMIT: usize = 16 * 1024;
 
 #[derive(Template)]
 #[template(path = "first_run.html")]

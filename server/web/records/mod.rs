@@ -30,6 +30,8 @@ pub fn router() -> Router<AppState> {
         .route("/review", get(review::queue))
         .route("/audit", get(audit::page))
         .route("/audit.csv", get(audit::csv))
+        // A signature form holds a meaning, a reason and a password.
+        .layer(axum::extract::DefaultBodyLimit::max(16 * 1024))
 }
 
 /// The record kind named in a path, refused clearly when unknown.
