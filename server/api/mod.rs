@@ -29,6 +29,8 @@ pub fn router() -> Router<AppState> {
 
 #[derive(OpenApi)]
 #[openapi(
+    modifiers(&BearerTokens),
+    security(("bearer" = [])),
     info(
         title = "Glasspoint API",
         description = "Formulations, materials, measurements, containers and calculations of a freeze-drying development notebook. Derived limits and verdicts support qualified judgement and do not replace experimental confirmation."
@@ -82,6 +84,27 @@ pub fn router() -> Router<AppState> {
     ))
 )]
 struct ApiDoc;
+
+/// Declares the API's one way to authenticate: an API token as a bearer token.
+struct BearerTokens;
+
+impl utoipa::Modify for BearerTokens {
+    fn modify(&self, openapi: &mut utoipa::openapi::OpenApi) {
+        use utoipa::openapi::security::{HttpAuthScheme, HttpBuilder, SecurityScheme};
+        let components = openapi.components.get_or_insert_with(Default::default);
+        components.add_security_scheme(
+            "bearer",
+            SecurityScheme::Http(
+                HttpBuilder::new()
+                    .scheme(HttpAuthScheme::Bearer)
+                    .description(Some(
+                        "An API token from `glasspoint user token NAME --scope read|write` or the Team page",
+                    ))
+                    .build(),
+            ),
+        );
+    }
+}
 
 /// Every API error: what is wrong and, where one is to blame, the field.
 #[derive(serde::Serialize, utoipa::ToSchema)]
