@@ -25,6 +25,28 @@ pub(crate) struct NewEvent<'a> {
     pub reason: &'a str,
 }
 
+impl<'a> NewEvent<'a> {
+    /// An event about an account that changes no record's content (sign-in, sign-out,
+    /// tokens).
+    pub fn account(
+        actor: &'a Actor,
+        action: Action,
+        user_id: Option<i64>,
+        reason: &'a str,
+    ) -> Self {
+        NewEvent {
+            actor,
+            action,
+            entity: Entity::User,
+            entity_id: user_id,
+            version: None,
+            before: None,
+            after: None,
+            reason,
+        }
+    }
+}
+
 /// One stored event.
 #[derive(Debug, Clone, FromRow, serde::Serialize, utoipa::ToSchema)]
 pub struct AuditEvent {

@@ -8,7 +8,7 @@ use super::write::{commit, on_tx};
 use super::{now, on_pool, Store};
 use crate::auth::secrets::{random_hex, sha256_hex};
 use crate::auth::Actor;
-use crate::domain::{Action, Entity};
+use crate::domain::Action;
 use crate::error::AppError;
 
 /// A live session: who, and the token its forms must carry.
@@ -68,16 +68,7 @@ impl Store {
         });
         append_event(
             &mut tx,
-            NewEvent {
-                actor,
-                action: Action::Login,
-                entity: Entity::User,
-                entity_id: Some(user_id),
-                version: None,
-                before: None,
-                after: None,
-                reason: address,
-            },
+            NewEvent::account(actor, Action::Login, Some(user_id), address),
         )
         .await?;
         commit(tx).await?;
@@ -143,16 +134,7 @@ impl Store {
         });
         append_event(
             &mut tx,
-            NewEvent {
-                actor,
-                action: Action::Logout,
-                entity: Entity::User,
-                entity_id: actor.user_id,
-                version: None,
-                before: None,
-                after: None,
-                reason: "",
-            },
+            NewEvent::account(actor, Action::Logout, actor.user_id, ""),
         )
         .await?;
         commit(tx).await
@@ -213,16 +195,7 @@ impl Store {
         };
         append_event(
             &mut tx,
-            NewEvent {
-                actor: &actor,
-                action: Action::LoginFailed,
-                entity: Entity::User,
-                entity_id: user_id,
-                version: None,
-                before: None,
-                after: None,
-                reason: address,
-            },
+            NewEvent::account(&actor, Action::LoginFailed, user_id, address),
         )
         .await?;
         commit(tx).await

@@ -308,14 +308,8 @@ impl Store {
         append_event(
             &mut tx,
             NewEvent {
-                actor,
-                action: Action::TokenCreate,
-                entity: Entity::User,
-                entity_id: Some(user_id),
-                version: None,
-                before: None,
                 after: Some(after),
-                reason: "",
+                ..NewEvent::account(actor, Action::TokenCreate, Some(user_id), "")
             },
         )
         .await?;
@@ -347,14 +341,8 @@ impl Store {
         append_event(
             &mut tx,
             NewEvent {
-                actor,
-                action: Action::TokenRevoke,
-                entity: Entity::User,
-                entity_id: Some(user_id),
-                version: None,
                 before: Some(before),
-                after: None,
-                reason: "",
+                ..NewEvent::account(actor, Action::TokenRevoke, Some(user_id), "")
             },
         )
         .await?;

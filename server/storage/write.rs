@@ -337,8 +337,14 @@ fn row_json<R: AnyRow>(row: &R, skip: &[&str]) -> Result<Map<String, Value>, App
 }
 
 /// What `row_json` needs of a backend's row.
-trait AnyRow {
-    fn column_names(&self) -> Vec<String>;
+trait AnyRow: Row {
+    fn column_names(&self) -> Vec<String> {
+        self.columns()
+            .iter()
+            .map(|c| c.name().to_string())
+            .collect()
+    }
+
     fn value(&self, i: usize) -> Result<Value, AppError>;
 }
 
@@ -349,13 +355,6 @@ fn number(v: f64) -> Value {
 }
 
 impl AnyRow for sqlx::sqlite::SqliteRow {
-    fn column_names(&self) -> Vec<String> {
-        self.columns()
-            .iter()
-            .map(|c| c.name().to_string())
-            .collect()
-    }
-
     fn value(&self, i: usize) -> Result<Value, AppError> {
         let raw = self.try_get_raw(i)?;
         if raw.is_null() {
@@ -374,13 +373,6 @@ impl AnyRow for sqlx::sqlite::SqliteRow {
 }
 
 impl AnyRow for sqlx::postgres::PgRow {
-    fn column_names(&self) -> Vec<String> {
-        self.columns()
-            .iter()
-            .map(|c| c.name().to_string())
-            .collect()
-    }
-
     fn value(&self, i: usize) -> Result<Value, AppError> {
         if self.try_get_raw(i)?.is_null() {
             return Ok(Value::Null);

@@ -93,6 +93,23 @@ async fn users_page(
     ))
 }
 
+/// The accounts page with a one-line notice of what just happened (or did not).
+async fn notice_page(
+    state: &AppState,
+    notice: String,
+    status: StatusCode,
+) -> Result<Response, AppError> {
+    users_page(
+        state,
+        NewUserForm::default(),
+        FieldErrors::default(),
+        None,
+        notice,
+        status,
+    )
+    .await
+}
+
 async fn users(State(state): State<AppState>) -> Result<Response, AppError> {
     users_page(
         &state,
@@ -202,26 +219,10 @@ async fn update_user(
         Ok(()) => Ok(see_other("/admin/users")),
         Err(AppError::Input(e)) => {
             let notice = format!("Account {id} was not changed: {}: {}", e.field, e.message);
-            users_page(
-                &state,
-                NewUserForm::default(),
-                FieldErrors::default(),
-                None,
-                notice,
-                StatusCode::UNPROCESSABLE_ENTITY,
-            )
-            .await
+            notice_page(&state, notice, StatusCode::UNPROCESSABLE_ENTITY).await
         }
         Err(AppError::Conflict(message)) => {
-            users_page(
-                &state,
-                NewUserForm::default(),
-                FieldErrors::default(),
-                None,
-                message,
-                StatusCode::CONFLICT,
-            )
-            .await
+            notice_page(&state, message, StatusCode::CONFLICT).await
         }
         Err(other) => Err(other),
     }
@@ -245,15 +246,7 @@ async fn reset_password(
             "The password of {} was not changed: {}",
             user.username, e.message
         );
-        return users_page(
-            &state,
-            NewUserForm::default(),
-            FieldErrors::default(),
-            None,
-            notice,
-            StatusCode::UNPROCESSABLE_ENTITY,
-        )
-        .await;
+        return notice_page(&state, notice, StatusCode::UNPROCESSABLE_ENTITY).await;
     }
     state
         .store
@@ -263,15 +256,7 @@ async fn reset_password(
         "The password of {} was changed; their sessions ended.",
         user.username
     );
-    users_page(
-        &state,
-        NewUserForm::default(),
-        FieldErrors::default(),
-        None,
-        notice,
-        StatusCode::OK,
-    )
-    .await
+    notice_page(&state, notice, StatusCode::OK).await
 }
 
 #[derive(Deserialize)]
@@ -294,15 +279,7 @@ async fn issue_token(
             "No token issued: scope must be one of: {}",
             TokenScope::codes()
         );
-        return users_page(
-            &state,
-            NewUserForm::default(),
-            FieldErrors::default(),
-            None,
-            notice,
-            StatusCode::UNPROCESSABLE_ENTITY,
-        )
-        .await;
+        return notice_page(&state, notice, StatusCode::UNPROCESSABLE_ENTITY).await;
     };
     match state
         .store
@@ -322,15 +299,7 @@ async fn issue_token(
         }
         Err(AppError::Input(e)) => {
             let notice = format!("No token issued: {}: {}", e.field, e.message);
-            users_page(
-                &state,
-                NewUserForm::default(),
-                FieldErrors::default(),
-                None,
-                notice,
-                StatusCode::UNPROCESSABLE_ENTITY,
-            )
-            .await
+            notice_page(&state, notice, StatusCode::UNPROCESSABLE_ENTITY).await
         }
         Err(other) => Err(other),
     }
