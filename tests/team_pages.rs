@@ -7,7 +7,7 @@ use glasspoint::domain::{Entity, Role};
 use glasspoint::{AppState, Config, Store};
 use tower::ServiceExt;
 
-use crate::helpers::{Reply, TestApp};
+use crate::helpers::Reply;
 use crate::on_both_backends;
 
 #[tokio::test]
