@@ -112,9 +112,10 @@ impl Entity {
     pub fn page(self, id: i64) -> String {
         match self {
             Entity::Formulation => format!("/formulations/{id}"),
-            Entity::Measurement => format!("/measurements/{id}/history"),
+            // Measurements and containers have no page of their own: their history is it.
+            Entity::Measurement => format!("/records/measurement/{id}/history"),
             Entity::Material => format!("/materials/{id}"),
-            Entity::Container => format!("/containers/{id}/history"),
+            Entity::Container => format!("/records/container/{id}/history"),
             Entity::Cycle => format!("/cycles/{id}"),
             Entity::User => "/admin/users".to_string(),
             Entity::Settings => "/admin/settings".to_string(),
