@@ -439,3 +439,40 @@ async fn audit_verify_exits_0_for_an_intact_trail_and_1_after_a_hand_edit() {
     );
     assert!(String::from_utf8_lossy(&bad.stdout).contains("ALTERED"));
 }
+
+/// Every `href="/…"` in a page.
+fn links(body: &str) -> Vec<String> {
+    body.split("href=\"")
+        .skip(1)
+        .filter_map(|rest| rest.split('"').next())
+        .filter(|href| href.starts_with('/') && !href.starts_with("/static/"))
+        .map(|href| href.replace("&amp;", "&").replace("&#38;", "&"))
+        .collect()
+}
+
+on_both_backends! {
+    async fn every_link_on_history_and_signing_pages_leads_somewhere(app) {
+        let f = app.post_json("/api/v1/formulations", &json!({"code": "LINK-1", "name": "linked"})).await.json();
+        let m = app.post_json("/api/v1/measurements", &json!({
+            "formulation_id": f["id"], "kind": "tc_onset", "value_c": -30.0, "method": "fdm",
+            "analyst": "L. Ink", "measured_on": "2026-02-02"
+        })).await;
+        assert_eq!(m.status, StatusCode::CREATED, "{}", m.body);
+        let c = app.store.list_containers().await.unwrap()[0].id;
+        let pages = [
+            format!("/records/measurement/{}/history", m.json()["id"]),
+            format!("/records/measurement/{}/sign", m.json()["id"]),
+            format!("/records/formulation/{}/history", f["id"]),
+            format!("/records/container/{c}/history"),
+            "/audit".to_string(),
+        ];
+        for page in pages {
+            let r = app.get(&page).await;
+            assert_eq!(r.status, StatusCode::OK, "{page}: {}", r.body);
+            for href in links(&r.body) {
+                let target = app.get(&href).await;
+                assert_ne!(target.status, StatusCode::NOT_FOUND, "{page} links to {href}, which is not found");
+            }
+        }
+    }
+}
