@@ -112,6 +112,7 @@ impl Entity {
     pub fn page(self, id: i64) -> String {
         match self {
             Entity::Formulation => format!("/formulations/{id}"),
+            // Measurements and containers have no page of their own: their history is it.
             Entity::Measurement => format!("/records/measurement/{id}/history"),
             Entity::Material => format!("/materials/{id}"),
             Entity::Container => format!("/records/container/{id}/history"),
