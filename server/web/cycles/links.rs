@@ -405,7 +405,7 @@ pub(super) async fn link_detail(
 
 /// Offers the suggestion as a new candidate cycle: this cycle with the suggested primary
 /// shelf temperature and pressure, and a primary hold of the predicted time plus the
-/// safety share, linked to the same formulation, container and fill.
+/// safety share, linked to the same formulation, container, fill and load.
 pub(super) async fn adopt_suggestion(
     State(state): State<AppState>,
     actor: Actor,
@@ -431,15 +431,7 @@ pub(super) async fn adopt_suggestion(
     let new_id = state.store.create_cycle(&actor, &draft).await?;
     state
         .store
-        .create_link(
-            &actor,
-            new_id,
-            &LinkDraft {
-                formulation_id: a.formulation.id,
-                container_id: a.container.id,
-                fill_volume_ml: a.link.fill_volume_ml,
-            },
-        )
+        .create_link(&actor, new_id, &LinkDraft::like(&a.link))
         .await?;
     Ok(see_other(&format!("/cycles/{new_id}")))
 }

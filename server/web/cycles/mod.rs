@@ -291,15 +291,7 @@ async fn copy(
     for l in state.store.links_of_cycle(id).await? {
         state
             .store
-            .create_link(
-                &actor,
-                new_id,
-                &LinkDraft {
-                    formulation_id: l.formulation_id,
-                    container_id: l.container_id,
-                    fill_volume_ml: l.fill_volume_ml,
-                },
-            )
+            .create_link(&actor, new_id, &LinkDraft::like(&l))
             .await?;
     }
     Ok(see_other(&format!("/cycles/{new_id}/edit")))
