@@ -11,6 +11,7 @@ mod backup;
 mod binary;
 mod calc;
 mod cycles;
+mod dryers;
 mod errors;
 mod forms;
 mod pages;

@@ -87,7 +87,9 @@ struct DetailPage {
     links: Vec<LinkRow>,
     formulations: Vec<(i64, String)>,
     containers: Vec<(i64, String)>,
+    dryers: Vec<(i64, String)>,
     link_form: LinkFormView,
+    default_edge_share: String,
     errors: FieldErrors,
     caution: &'static str,
 }
@@ -97,6 +99,9 @@ struct LinkFormView {
     formulation_id: String,
     container_id: String,
     fill_volume_ml: String,
+    dryer_id: String,
+    vial_count: String,
+    edge_vial_share: String,
 }
 
 async fn detail_page(
@@ -122,13 +127,29 @@ async fn detail_page(
         .into_iter()
         .map(|c| (c.id, c.name))
         .collect();
+    let dryers = state
+        .store
+        .list_dryers()
+        .await?
+        .into_iter()
+        .map(|d| {
+            let label = if d.typical_values {
+                format!("{} (typical values)", d.name)
+            } else {
+                d.name
+            };
+            (d.id, label)
+        })
+        .collect();
     Ok(render(DetailPage {
         program: program_lines(&c),
         c,
         links,
         formulations,
         containers,
+        dryers,
         link_form,
+        default_edge_share: number_text(glasspoint_science::batch::DEFAULT_EDGE_SHARE),
         errors,
         caution: caution(),
     }))
@@ -171,6 +192,9 @@ pub(super) async fn add_link(
                 formulation_id: form.formulation_id,
                 container_id: form.container_id,
                 fill_volume_ml: form.fill_volume_ml,
+                dryer_id: form.dryer_id,
+                vial_count: form.vial_count,
+                edge_vial_share: form.edge_vial_share,
             };
             detail_page(&state, id, view, errors)
                 .await
@@ -228,6 +252,9 @@ struct LinkPage {
     checks: Vec<CheckView>,
     verdict_error: String,
     facts: Vec<(String, String)>,
+    classes: Vec<super::load::ClassRow>,
+    batch_facts: Vec<(String, String)>,
+    dryer_facts: Option<Vec<(String, String)>>,
     suggestion: Vec<String>,
     suggestion_ok: bool,
     guided_ok: bool,
@@ -394,6 +421,17 @@ pub(super) async fn link_detail(
         checks,
         verdict_error,
         facts: simulation_facts(&a),
+        classes: a
+            .batch
+            .as_ref()
+            .map(super::load::class_rows)
+            .unwrap_or_default(),
+        batch_facts: a
+            .batch
+            .as_ref()
+            .map(|b| super::load::batch_facts(&a, b))
+            .unwrap_or_default(),
+        dryer_facts: super::load::dryer_facts(&a),
         suggestion,
         suggestion_ok,
         guided_ok,

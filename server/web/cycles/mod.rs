@@ -7,6 +7,7 @@
 mod charts;
 mod design_space;
 mod links;
+mod load;
 
 use super::extract::{Form, Path, Query};
 use crate::auth::Actor;
