@@ -272,3 +272,43 @@ on_both_backends! {
         assert!(page.contains("No dryer is named for this link, so the equipment"));
     }
 }
+
+on_both_backends! {
+    async fn the_demo_platform_cycle_passes_its_formulations_and_fails_mannitol(app) {
+        // Demo data is an invented scenario: these verdicts check that the demo tells its
+        // story, not a published value.
+        app.load_demo().await;
+        let platform = app.store.list_cycles(false).await.unwrap().into_iter()
+            .find(|c| c.name == "Larchvale platform A").unwrap();
+        let detail = app.get(&format!("/api/v1/cycles/{}", platform.id)).await.json();
+        let links = detail["links"].as_array().unwrap();
+        let verdict = |code: &str| {
+            links.iter().find(|l| l["link"]["formulation_code"] == code)
+                .unwrap_or_else(|| panic!("{code} is on the platform cycle"))["verdict"].clone()
+        };
+        for code in ["LV-002", "LV-004", "LV-008", "LV-009"] {
+            let v = verdict(code);
+            assert_eq!(v["overall"], "ok", "{code}: {v}");
+        }
+        for l in links {
+            assert!(l["link"]["dryer_name"] == "Typical laboratory dryer", "every demo link names the dryer");
+            assert!(l["link"]["vial_count"].as_i64().unwrap() > 0);
+            let equipment = l["verdict"]["checks"].as_array().unwrap().iter()
+                .find(|c| c["topic"] == "equipment").unwrap().clone();
+            assert_eq!(equipment["state"], "ok", "{equipment}");
+        }
+        // The mannitol matrix is not what the platform was made for: too warm for its
+        // amorphous part, and no annealing step although one is advised.
+        let mannitol = verdict("LV-006");
+        assert_eq!(mannitol["overall"], "fails");
+        let check = |topic: &str| mannitol["checks"].as_array().unwrap().iter()
+            .find(|c| c["topic"] == topic).unwrap().clone();
+        assert_eq!(check("product_temperature")["state"], "fails");
+        assert!(check("product_temperature")["message"].as_str().unwrap().contains("above the limit"));
+        assert!(check("annealing")["message"].as_str().unwrap().contains("Annealing is advised"));
+        // The sucrose reference's edge vials run close to its limit: worth a look.
+        let sucrose = verdict("LV-001");
+        assert_eq!(sucrose["overall"], "watch", "{sucrose}");
+        assert!(sucrose["caution"].as_str().unwrap().contains("do not replace"));
+    }
+}
