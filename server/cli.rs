@@ -1,4 +1,5 @@
-//! The `glasspoint` command line: serve, migrate, backup, seed-demo, calc.
+//! The `glasspoint` command line: serve, migrate, backup, seed-demo, user, dryer, audit,
+//! calc.
 
 use std::io::Read;
 use std::net::SocketAddr;
@@ -85,6 +86,13 @@ enum Command {
         #[command(flatten)]
         db: DatabaseArg,
     },
+    /// Show the dryers cycle links may name.
+    Dryer {
+        #[command(subcommand)]
+        action: DryerCommand,
+        #[command(flatten)]
+        db: DatabaseArg,
+    },
     /// Check the audit trail.
     Audit {
         #[command(subcommand)]
@@ -105,6 +113,13 @@ enum Command {
         #[command(flatten)]
         db: DatabaseArg,
     },
+}
+
+#[derive(Subcommand)]
+enum DryerCommand {
+    /// List the dryers: shelf area, lowest pressure, condenser, capability points and edge
+    /// heat factor (typical, invented values are marked).
+    List,
 }
 
 #[derive(Subcommand)]
@@ -229,6 +244,17 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             store.close().await;
             code
         }
+        Command::Dryer { action, db } => {
+            let (store, _) = open(db).await?;
+            let result = match action {
+                DryerCommand::List => store.list_dryers().await,
+            };
+            store.close().await;
+            for d in result? {
+                println!("{}", dryer_line(&d));
+            }
+            Ok(ExitCode::SUCCESS)
+        }
         Command::Audit { action, db } => {
             let (store, _) = open(db).await?;
             let code = match action {
@@ -271,6 +297,43 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             Ok(ExitCode::SUCCESS)
         }
     }
+}
+
+/// One dryer as `glasspoint dryer list` prints it.
+fn dryer_line(d: &crate::domain::Dryer) -> String {
+    let opt = |v: Option<f64>, unit: &str| match v {
+        Some(v) => format!("{v} {unit}"),
+        None => "not given".to_string(),
+    };
+    let capability = if d.capability.is_empty() {
+        "not given".to_string()
+    } else {
+        d.capability
+            .iter()
+            .map(|p| {
+                format!(
+                    "{} mTorr → {} kg/h",
+                    p.pressure_mtorr, p.max_sublimation_kg_h
+                )
+            })
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    format!(
+        "{id}\t{name}{typical}\tshelf {area} m²; lowest pressure {min}; condenser {cond}; \
+         capability {capability}; edge heat factor {edge}",
+        id = d.id,
+        name = d.name,
+        typical = if d.typical_values {
+            " (typical values: replace with your own)"
+        } else {
+            ""
+        },
+        area = d.shelf_area_m2,
+        min = opt(d.min_pressure_mtorr, "mTorr"),
+        cond = opt(d.condenser_capacity_kg, "kg"),
+        edge = d.edge_heat_factor,
+    )
 }
 
 /// The demo accounts' one-time passwords: printed here and stored nowhere but as hashes.

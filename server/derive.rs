@@ -500,6 +500,8 @@ pub struct Assessment {
     pub cycle: Cycle,
     pub formulation: Formulation,
     pub container: Container,
+    /// The dryer the link names, if any: then the equipment is checked against it.
+    pub dryer: Option<Dryer>,
     pub derived: Derived,
     pub resistance: DryLayerResistance,
     pub base: DryingBase,
@@ -529,6 +531,7 @@ impl Assessment {
             "no maximum product temperature is derived yet, so no faster cycle can be searched for",
         )?;
         let facts = facts(&self.derived);
+        let load = load_of(&self.link, self.dryer.as_ref());
         suggest(&SuggestInput {
             base: self.base.clone(),
             max_product_temp_c: limit,
@@ -537,12 +540,22 @@ impl Assessment {
             pressure_range_mtorr: None,
             start_shelf_temp_c: Some(self.cycle.program.freezing.hold_temp_c),
             ramp_c_per_min: Some(self.cycle.program.primary.ramp_c_per_min),
-            dryer: None,
-            vial_count: None,
-            edge_vial_share: None,
-            kv_cv: None,
+            dryer: load.dryer,
+            vial_count: load.vial_count,
+            edge_vial_share: load.edge_vial_share,
+            kv_cv: load.kv_cv,
         })
         .map_err(|e| format!("{}: {}", e.field, e.message))
+    }
+}
+
+/// The load of a link as the checks read it: its dryer, vial count and edge share.
+pub fn load_of(link: &CycleLink, dryer: Option<&Dryer>) -> Load {
+    Load {
+        dryer: dryer.map(Dryer::science),
+        vial_count: link.vial_count.map(|n| n as f64),
+        edge_vial_share: link.edge_vial_share,
+        kv_cv: None,
     }
 }
 
@@ -552,6 +565,10 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
     let cycle = store.get_cycle(link.cycle_id).await?;
     let formulation = store.get_formulation(link.formulation_id).await?;
     let container = store.get_container(link.container_id).await?;
+    let dryer = match link.dryer_id {
+        Some(id) => Some(store.get_dryer(id).await?),
+        None => None,
+    };
     let basis = team_basis(store, margin_c).await?;
     let measurements = basis.usable(&store.measurements_of(formulation.id).await?);
     let materials = store.list_materials().await?;
@@ -571,11 +588,16 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
         }),
         ..VerdictOptions::default()
     };
-    let (verdict, batch) =
-        match assess_cycle(&cycle.program, &facts, &base, &Load::default(), &options) {
-            Ok(a) => (Ok(a.verdict), a.batch),
-            Err(e) => (Err(format!("{}: {}", e.field, e.message)), None),
-        };
+    let (verdict, batch) = match assess_cycle(
+        &cycle.program,
+        &facts,
+        &base,
+        &load_of(&link, dryer.as_ref()),
+        &options,
+    ) {
+        Ok(a) => (Ok(a.verdict), a.batch),
+        Err(e) => (Err(format!("{}: {}", e.field, e.message)), None),
+    };
     let simulation = batch.as_ref().and_then(|_| {
         let input = primary_drying_input(&cycle.program, &base, facts.max_product_temp_c);
         glasspoint_science::drying::simulate(&input).ok()
@@ -585,6 +607,7 @@ pub async fn assess(store: &Store, link: CycleLink, margin_c: f64) -> Result<Ass
         cycle,
         formulation,
         container,
+        dryer,
         derived,
         resistance,
         base,

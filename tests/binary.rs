@@ -150,3 +150,24 @@ fn backup_writes_a_new_file_refuses_an_existing_one_and_points_postgres_to_pg_du
     assert!(!pg.status.success());
     assert!(String::from_utf8_lossy(&pg.stderr).contains("pg_dump"));
 }
+
+#[test]
+fn dryer_list_shows_the_shipped_typical_dryer_marked_as_typical() {
+    let dir = tempfile::tempdir().unwrap();
+    let db = format!("sqlite://{}", dir.path().join("d.db").display());
+    let out = Command::new(binary())
+        .args(["dryer", "list", "--database", &db])
+        .output()
+        .expect("run glasspoint dryer list");
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("Typical laboratory dryer (typical values: replace with your own)"),
+        "{text}"
+    );
+    assert!(text.contains("100 mTorr → 1 kg/h"), "{text}");
+}

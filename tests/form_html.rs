@@ -210,3 +210,39 @@ line &lt;2&gt;</textarea>
     assert_eq!(f.get("on"), Some("on"));
     assert_eq!(f.get("notes"), Some("line 1\r\nline <2>"));
 }
+
+#[test]
+fn a_dryer_capability_text_area_posts_back_every_point_exactly() {
+    // The capability is one point per line; a browser sends the text area with \r\n.
+    let html = r#"<form method="post" action="/dryers/1" class="record">
+      <textarea name="capability" rows="6">33.3333 0.30000000000000004
+100 0.3333333333333333</textarea>
+      <button type="submit">Save</button></form>"#;
+    let f = post_form_in(html);
+    let posted = f.get("capability").unwrap();
+    assert!(posted.contains("\r\n"));
+    let form = glasspoint::domain::DryerForm {
+        name: "d".into(),
+        shelf_area_m2: "1".into(),
+        shelf_area_source: "s".into(),
+        capability: posted.to_string(),
+        capability_source: "s".into(),
+        ..Default::default()
+    };
+    let d = form.parse().unwrap();
+    let points: Vec<(f64, f64)> = d
+        .capability
+        .iter()
+        .map(|p| (p.pressure_mtorr, p.max_sublimation_kg_h))
+        .collect();
+    assert_eq!(
+        points
+            .iter()
+            .map(|p| (p.0.to_bits(), p.1.to_bits()))
+            .collect::<Vec<_>>(),
+        [(33.3333f64, 0.1 + 0.2), (100.0, 1.0 / 3.0)]
+            .iter()
+            .map(|p: &(f64, f64)| (p.0.to_bits(), p.1.to_bits()))
+            .collect::<Vec<_>>()
+    );
+}

@@ -176,6 +176,34 @@ on_both_backends! {
     }
 }
 
+on_both_backends! {
+    async fn a_dryer_with_awkward_values_survives_its_edit_form_unchanged(app) {
+        let created = app.post_json("/api/v1/dryers", &json!({
+            "name": "Pilot “B” ⌀ <duct>", "shelf_area_m2": 0.1 + 0.2,
+            "shelf_area_source": "Drawing <rev 3> & tape", "min_pressure_mtorr": 66.6667,
+            "min_pressure_source": "control test", "condenser_capacity_kg": std::f64::consts::PI,
+            "condenser_source": "rated",
+            "capability": [{"pressure_mtorr": 33.3333, "max_sublimation_kg_h": 0.1 + 0.2},
+                           {"pressure_mtorr": 100.0, "max_sublimation_kg_h": 1.0 / 3.0},
+                           {"pressure_mtorr": 250.5, "max_sublimation_kg_h": 2.0125}],
+            "capability_source": "ice-slab test, 2 runs", "edge_heat_factor": 1.234567891,
+            "edge_heat_source": "gravimetric Kv", "typical_values": true, "notes": awkward_notes()
+        })).await;
+        assert_eq!(created.status, StatusCode::CREATED, "{}", created.body);
+        let id = created.json()["id"].as_i64().unwrap();
+        assert_unchanged_by_its_form(&app, &format!("/api/v1/dryers/{id}"), &format!("/dryers/{id}/edit")).await;
+        // …and so does one without the optional values.
+        let bare = app.post_json("/api/v1/dryers", &json!({
+            "name": "Bare", "shelf_area_m2": 1.0, "shelf_area_source": "measured"
+        })).await;
+        assert_eq!(bare.status, StatusCode::CREATED, "{}", bare.body);
+        let id = bare.json()["id"].as_i64().unwrap();
+        assert_unchanged_by_its_form(&app, &format!("/api/v1/dryers/{id}"), &format!("/dryers/{id}/edit")).await;
+        let history = app.store.history(glasspoint::domain::Entity::Dryer, id).await.unwrap();
+        assert_eq!(history.len(), 1, "saving unchanged writes no event");
+    }
+}
+
 fn awkward_program(hold_min: f64) -> Value {
     json!({
         "freezing": {"ramp_c_per_min": 0.0125, "hold_temp_c": -45.5, "hold_min": hold_min},
@@ -303,6 +331,8 @@ on_both_backends! {
              "/materials".into(), vec![("name", "typed material"), ("role", "other"), ("freezing_behaviour", "amorphous")], "typed material"),
             ("/api/v1/containers", json!({"name": "typed vial", "kind": "tubing", "nominal_ml": 6, "inner_area_cm2": 3.8, "outer_area_cm2": 4.1, "kc_cal_s_cm2_k": 0.0003, "kp_cal_s_cm2_k_torr": 0.02, "kd_per_torr": 0.5, "kv_source": "x", "notes": long}),
              "/containers".into(), vec![("name", "typed vial"), ("kind", "tubing"), ("nominal_ml", "6"), ("inner_area_cm2", "3.8"), ("outer_area_cm2", "4.1"), ("kc_cal_s_cm2_k", "0.0003"), ("kp_cal_s_cm2_k_torr", "0.02"), ("kd_per_torr", "0.5"), ("kv_source", "x")], "typed vial"),
+            ("/api/v1/dryers", json!({"name": "typed dryer", "shelf_area_m2": 0.5, "shelf_area_source": "x", "notes": long}),
+             "/dryers".into(), vec![("name", "typed dryer"), ("shelf_area_m2", "0.5"), ("shelf_area_source", "x")], "typed dryer"),
             ("/api/v1/cycles", json!({"name": "typed cycle", "program": program, "notes": long}),
              "/cycles".into(), vec![("name", "typed cycle"), ("freezing_ramp_c_per_min", "1"), ("freezing_hold_temp_c", "-45"), ("freezing_hold_h", "2"), ("primary_ramp_c_per_min", "0.5"), ("primary_shelf_temp_c", "-25"), ("primary_chamber_pressure", "100"), ("primary_hold_h", "40"), ("secondary_ramp_c_per_min", "0.1"), ("secondary_shelf_temp_c", "40"), ("secondary_pressure", "100"), ("secondary_hold_h", "6")], "typed cycle"),
         ];

@@ -14,6 +14,7 @@ mod binary;
 mod calc;
 mod concurrency;
 mod cycles;
+mod dryers;
 mod errors;
 mod forms;
 mod injection;

@@ -130,3 +130,22 @@ async fn the_team_margin_sets_the_limit_that_cycle_checks_use() {
     );
     app.cleanup().await;
 }
+
+on_both_backends! {
+    async fn an_estimate_that_may_be_too_warm_says_so_beside_its_value(app) {
+        // Sodium chloride crystallizes and has no Tg′ in the library (Te −21.1 °C:
+        // Drebushchak et al. 2017): left amorphous as a minority it would lower Tg′ by an
+        // amount the estimate cannot know.
+        let sucrose = app.material_id("Sucrose").await;
+        let salt = app.material_id("Sodium chloride").await;
+        let r = app.post_json("/api/v1/formulations", &serde_json::json!({
+            "code": "WARM-1", "name": "Sucrose with a little salt",
+            "components": [{"material_id": sucrose, "concentration": 50.0, "unit": "mg/mL"},
+                           {"material_id": salt, "concentration": 2.0, "unit": "mg/mL"}]
+        })).await;
+        assert_eq!(r.status, StatusCode::CREATED, "{}", r.body);
+        let id = r.json()["id"].as_i64().unwrap();
+        let page = app.get(&format!("/formulations/{id}")).await.body;
+        assert!(page.contains("may be too warm: a component that may stay amorphous has no"), "the flag is shown beside the value, not only in the reasoning");
+    }
+}

@@ -69,6 +69,73 @@ pub struct LinkInput {
     pub container_id: i64,
     /// Defaults to the formulation's own target fill.
     pub fill_volume_ml: Option<f64>,
+    /// The dryer the load runs in; without one the equipment is not checked.
+    pub dryer_id: Option<i64>,
+    /// Vials in the load; without it a named dryer's shelves are taken as full.
+    pub vial_count: Option<i64>,
+    /// Share of the load in edge positions, 0 to below 1 (default 0.10).
+    pub edge_vial_share: Option<f64>,
+}
+
+/// One class of vials of the load through primary drying.
+#[derive(Debug, Serialize, ToSchema)]
+pub struct ClassView {
+    /// centre | centre_low_kv | centre_high_kv | edge
+    pub class: String,
+    pub label: String,
+    /// Share of the load.
+    pub share: f64,
+    /// Kv over the vial type's nominal Kv.
+    pub kv_factor: f64,
+    pub peak_front_temp_c: f64,
+    pub peak_bottom_temp_c: f64,
+    pub drying_time_h: f64,
+    /// Highest sublimation rate of one vial of the class, g/h.
+    pub peak_sublimation_rate_g_h: f64,
+}
+
+/// The load through primary drying: its vial classes and when they run out of ice.
+#[derive(Debug, Serialize, ToSchema)]
+pub struct BatchView {
+    pub classes: Vec<ClassView>,
+    /// When the first vials (the fastest class) are dry, h.
+    pub first_dry_h: f64,
+    /// When the last vials (the slowest class) are dry, h.
+    pub last_dry_h: f64,
+    pub vial_count: Option<f64>,
+    /// Highest total sublimation rate of the load, kg/h (with a vial count).
+    pub peak_sublimation_kg_h: Option<f64>,
+    /// Highest sublimation rate of one average vial, g/h.
+    pub peak_mean_rate_g_h: f64,
+}
+
+impl BatchView {
+    fn of(b: &glasspoint_science::batch::BatchResult) -> Self {
+        BatchView {
+            classes: b
+                .classes
+                .iter()
+                .map(|c| ClassView {
+                    class: serde_json::to_value(c.class)
+                        .ok()
+                        .and_then(|v| v.as_str().map(str::to_string))
+                        .unwrap_or_default(),
+                    label: c.class.label().to_string(),
+                    share: c.share,
+                    kv_factor: c.kv_factor,
+                    peak_front_temp_c: c.peak_front_temp_c,
+                    peak_bottom_temp_c: c.peak_bottom_temp_c,
+                    drying_time_h: c.drying_time_h,
+                    peak_sublimation_rate_g_h: c.peak_sublimation_rate_g_h,
+                })
+                .collect(),
+            first_dry_h: b.first_dry_h,
+            last_dry_h: b.last_dry_h,
+            vial_count: b.vial_count,
+            peak_sublimation_kg_h: b.peak_sublimation_kg_h,
+            peak_mean_rate_g_h: b.peak_mean_rate_g_h,
+        }
+    }
 }
 
 /// One link with what the model and the checks say of it.
@@ -76,8 +143,12 @@ pub struct LinkInput {
 pub struct LinkVerdict {
     pub link: CycleLink,
     pub max_product_temp_c: Option<f64>,
+    /// When the last vials of the load are dry (the slowest class), h.
     pub predicted_drying_time_h: Option<f64>,
+    /// The warmest class's peak front temperature, °C.
     pub peak_front_temp_c: Option<f64>,
+    /// The load's vial classes, first and last dry, peak total sublimation rate.
+    pub batch: Option<BatchView>,
     #[schema(value_type = Object)]
     pub verdict: Option<CycleVerdict>,
     /// Why there is no verdict, when there is none.
@@ -120,8 +191,14 @@ pub async fn get_cycle(
         };
         links.push(LinkVerdict {
             max_product_temp_c: a.derived.max_product_temp_c(),
-            predicted_drying_time_h: a.simulation.as_ref().map(|s| s.summary.drying_time_h),
-            peak_front_temp_c: a.simulation.as_ref().map(|s| s.summary.peak_front_temp_c),
+            predicted_drying_time_h: a.batch.as_ref().map(|b| b.last_dry_h),
+            peak_front_temp_c: a.batch.as_ref().map(|b| {
+                b.classes
+                    .iter()
+                    .map(|c| c.peak_front_temp_c)
+                    .fold(f64::NEG_INFINITY, f64::max)
+            }),
+            batch: a.batch.as_ref().map(BatchView::of),
             link: a.link,
             verdict,
             verdict_error,
@@ -193,7 +270,10 @@ pub async fn create_link(
     let form = LinkForm {
         formulation_id: input.formulation_id.to_string(),
         container_id: input.container_id.to_string(),
-        fill_volume_ml: fill.to_string(),
+        fill_volume_ml: number_text(fill),
+        dryer_id: input.dryer_id.map(|v| v.to_string()).unwrap_or_default(),
+        vial_count: input.vial_count.map(|v| v.to_string()).unwrap_or_default(),
+        edge_vial_share: input.edge_vial_share.map(number_text).unwrap_or_default(),
     };
     state.store.create_link(&actor, id, &form.parse()?).await?;
     let detail = get_cycle(State(state), Path(id)).await?;

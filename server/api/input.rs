@@ -260,3 +260,60 @@ impl ContainerInput {
         }
     }
 }
+
+#[derive(Debug, Deserialize, ToSchema)]
+pub struct DryerInput {
+    pub name: String,
+    pub shelf_area_m2: f64,
+    pub shelf_area_source: String,
+    /// Lowest controllable chamber pressure, mTorr.
+    pub min_pressure_mtorr: Option<f64>,
+    #[serde(default)]
+    pub min_pressure_source: String,
+    /// Ice the condenser holds, kg.
+    pub condenser_capacity_kg: Option<f64>,
+    #[serde(default)]
+    pub condenser_source: String,
+    /// Measured points, rising in pressure: chamber pressure (mTorr) → highest sustainable
+    /// sublimation rate (kg/h).
+    #[serde(default)]
+    pub capability: Vec<DryerPoint>,
+    #[serde(default)]
+    pub capability_source: String,
+    /// Edge vials' effective Kv over centre vials' (1 to 3; 1.0, no edge effect, when
+    /// omitted).
+    pub edge_heat_factor: Option<f64>,
+    #[serde(default)]
+    pub edge_heat_source: String,
+    #[serde(default)]
+    pub typical_values: bool,
+    #[serde(default)]
+    pub notes: String,
+    /// Required on update: the version you read.
+    pub version: Option<i64>,
+}
+
+impl DryerInput {
+    pub fn to_form(&self) -> DryerForm {
+        DryerForm {
+            name: self.name.clone(),
+            shelf_area_m2: number_text(self.shelf_area_m2),
+            shelf_area_source: self.shelf_area_source.clone(),
+            min_pressure_mtorr: num(self.min_pressure_mtorr),
+            min_pressure_source: self.min_pressure_source.clone(),
+            condenser_capacity_kg: num(self.condenser_capacity_kg),
+            condenser_source: self.condenser_source.clone(),
+            capability: capability_text(&self.capability),
+            capability_source: self.capability_source.clone(),
+            edge_heat_factor: num(self.edge_heat_factor),
+            edge_heat_source: self.edge_heat_source.clone(),
+            typical_values: if self.typical_values {
+                "on".into()
+            } else {
+                String::new()
+            },
+            notes: self.notes.clone(),
+            version: self.version.map(|v| v.to_string()).unwrap_or_default(),
+        }
+    }
+}

@@ -33,7 +33,7 @@ pub fn router() -> Router<AppState> {
     security(("bearer" = [])),
     info(
         title = "Glasspoint API",
-        description = "Formulations, materials, measurements, containers and calculations of a freeze-drying development notebook. Derived limits and verdicts support qualified judgement and do not replace experimental confirmation."
+        description = "Formulations, materials, measurements, containers, dryers and calculations of a freeze-drying development notebook. Derived limits and verdicts support qualified judgement and do not replace experimental confirmation."
     ),
     paths(
         records::list_formulations,
@@ -52,6 +52,10 @@ pub fn router() -> Router<AppState> {
         records::get_container,
         records::create_container,
         records::update_container,
+        records::list_dryers,
+        records::get_dryer,
+        records::create_dryer,
+        records::update_dryer,
         cycles::list_cycles,
         cycles::get_cycle,
         cycles::create_cycle,
@@ -67,12 +71,15 @@ pub fn router() -> Router<AppState> {
         input::PropertyInput,
         input::MeasurementInput,
         input::ContainerInput,
+        input::DryerInput,
         ErrorBody,
         crate::storage::AuditEvent,
         cycles::CycleInput,
         cycles::LinkInput,
         cycles::LinkVerdict,
         cycles::CycleDetail,
+        cycles::BatchView,
+        cycles::ClassView,
         crate::domain::Cycle,
         crate::domain::CycleLink,
         crate::domain::Formulation,
@@ -81,6 +88,8 @@ pub fn router() -> Router<AppState> {
         crate::domain::MaterialProperty,
         crate::domain::Measurement,
         crate::domain::Container,
+        crate::domain::Dryer,
+        crate::domain::DryerPoint,
     ))
 )]
 struct ApiDoc;

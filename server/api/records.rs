@@ -1,5 +1,5 @@
 //! Record endpoints: list, get, create, update for formulations, materials, measurements
-//! and containers.
+//! containers and dryers.
 
 use super::extract::{Path, Query};
 use crate::auth::Actor;
@@ -41,6 +41,8 @@ pub fn router() -> Router<AppState> {
         )
         .route("/containers", get(list_containers).post(create_container))
         .route("/containers/{id}", get(get_container).put(update_container))
+        .route("/dryers", get(list_dryers).post(create_dryer))
+        .route("/dryers/{id}", get(get_dryer).put(update_dryer))
 }
 
 /// Renames the fields of a validation error to their JSON spelling.
@@ -357,4 +359,52 @@ pub async fn update_container(
         .update_container(&actor, id, version, &draft)
         .await?;
     Ok(Json(state.store.get_container(id).await?))
+}
+
+// ------------------------------------------------------------------ dryers
+
+#[utoipa::path(get, path = "/api/v1/dryers", responses((status = 200, description = "{items, page, per_page, total, pages}")))]
+pub async fn list_dryers(State(state): State<AppState>) -> ApiResult<Json<Page<Dryer>>> {
+    Ok(Json(whole(state.store.list_dryers().await?)))
+}
+
+#[utoipa::path(get, path = "/api/v1/dryers/{id}",
+    params(("id" = i64, Path, description = "record id")),
+    responses((status = 200, body = Dryer), (status = 404, body = super::ErrorBody)))]
+pub async fn get_dryer(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+) -> ApiResult<Json<Dryer>> {
+    Ok(Json(state.store.get_dryer(id).await?))
+}
+
+#[utoipa::path(post, path = "/api/v1/dryers", request_body = DryerInput,
+    responses((status = 201, body = Dryer), (status = 422, body = super::ErrorBody)))]
+pub async fn create_dryer(
+    State(state): State<AppState>,
+    actor: Actor,
+    ApiJson(input): ApiJson<DryerInput>,
+) -> ApiResult<(StatusCode, Json<Dryer>)> {
+    let draft = input.to_form().parse()?;
+    let id = state.store.create_dryer(&actor, &draft).await?;
+    Ok((StatusCode::CREATED, Json(state.store.get_dryer(id).await?)))
+}
+
+#[utoipa::path(put, path = "/api/v1/dryers/{id}",
+    params(("id" = i64, Path, description = "record id")), request_body = DryerInput,
+    responses((status = 200, body = Dryer), (status = 404, body = super::ErrorBody),
+              (status = 409, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
+pub async fn update_dryer(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+    ApiJson(input): ApiJson<DryerInput>,
+) -> ApiResult<Json<Dryer>> {
+    let draft = input.to_form().parse()?;
+    let version = required_version(input.version)?;
+    state
+        .store
+        .update_dryer(&actor, id, version, &draft)
+        .await?;
+    Ok(Json(state.store.get_dryer(id).await?))
 }

@@ -35,6 +35,13 @@ pub struct CycleLink {
     pub container_id: i64,
     pub container_name: String,
     pub fill_volume_ml: f64,
+    /// The dryer the load runs in, when named: then the equipment is checked.
+    pub dryer_id: Option<i64>,
+    pub dryer_name: Option<String>,
+    /// Vials in the load (the shelves taken as full when not given).
+    pub vial_count: Option<i64>,
+    /// Share of the load in edge positions (the stated default when not given).
+    pub edge_vial_share: Option<f64>,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -377,6 +384,9 @@ pub struct LinkForm {
     pub formulation_id: String,
     pub container_id: String,
     pub fill_volume_ml: String,
+    pub dryer_id: String,
+    pub vial_count: String,
+    pub edge_vial_share: String,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -384,7 +394,27 @@ pub struct LinkDraft {
     pub formulation_id: i64,
     pub container_id: i64,
     pub fill_volume_ml: f64,
+    pub dryer_id: Option<i64>,
+    pub vial_count: Option<i64>,
+    pub edge_vial_share: Option<f64>,
 }
+
+impl LinkDraft {
+    /// The same formulation, container, fill and load as an existing link (for copies).
+    pub fn like(l: &CycleLink) -> Self {
+        LinkDraft {
+            formulation_id: l.formulation_id,
+            container_id: l.container_id,
+            fill_volume_ml: l.fill_volume_ml,
+            dryer_id: l.dryer_id,
+            vial_count: l.vial_count,
+            edge_vial_share: l.edge_vial_share,
+        }
+    }
+}
+
+/// Most vials a load may hold (a large production dryer holds some 10⁵).
+pub const MAX_VIAL_COUNT: i64 = 1_000_000;
 
 impl LinkForm {
     pub fn parse(&self) -> Result<LinkDraft, FieldErrors> {
@@ -399,10 +429,45 @@ impl LinkForm {
         }
         let fill = required_number(&mut e, "fill_volume_ml", &self.fill_volume_ml);
         check_positive(&mut e, "fill_volume_ml", fill, 500.0, "mL");
+        let dryer = optional_id(&mut e, "dryer_id", &self.dryer_id);
+        let count_text = self.vial_count.trim();
+        let vial_count = if count_text.is_empty() {
+            None
+        } else {
+            match count_text.parse::<i64>() {
+                Ok(n) if (1..=MAX_VIAL_COUNT).contains(&n) => Some(n),
+                Ok(_) => {
+                    e.add(
+                        "vial_count",
+                        format!("give a whole number of vials from 1 to {MAX_VIAL_COUNT}"),
+                    );
+                    None
+                }
+                Err(_) => {
+                    e.add(
+                        "vial_count",
+                        format!("“{count_text}” is not a whole number of vials"),
+                    );
+                    None
+                }
+            }
+        };
+        let share = optional_number(&mut e, "edge_vial_share", &self.edge_vial_share);
+        if let Some(s) = share {
+            if !(0.0..1.0).contains(&s) {
+                e.add(
+                    "edge_vial_share",
+                    format!("is a share of the load, from 0 to below 1 (got {s}; 0.1 is one vial in ten)"),
+                );
+            }
+        }
         e.into_result(LinkDraft {
             formulation_id: f.unwrap_or_default(),
             container_id: c.unwrap_or_default(),
             fill_volume_ml: fill.unwrap_or_default(),
+            dryer_id: dryer,
+            vial_count,
+            edge_vial_share: share,
         })
     }
 }

@@ -5,11 +5,13 @@
 mod enums;
 mod audit;
 mod cycles;
+mod dryers;
 pub mod fields;
 pub mod records;
 
 pub use audit::*;
 pub use cycles::*;
+pub use dryers::*;
 pub use enums::*;
 pub use fields::{limits, number_text, FieldError, FieldErrors};
 pub use records::*;

@@ -92,13 +92,18 @@ struct LinkRow {
     container_id: i64,
     container_name: String,
     fill_volume_ml: f64,
+    dryer_id: Option<i64>,
+    dryer_name: Option<String>,
+    vial_count: Option<i64>,
+    edge_vial_share: Option<f64>,
 }
 
 const SELECT_LINKS: &str =
     "SELECT l.id, l.cycle_id, y.name AS cycle_name, l.formulation_id, f.code AS formulation_code, \
-     l.container_id, c.name AS container_name, l.fill_volume_ml FROM cycle_links l \
+     l.container_id, c.name AS container_name, l.fill_volume_ml, l.dryer_id, \
+     d.name AS dryer_name, l.vial_count, l.edge_vial_share FROM cycle_links l \
      JOIN cycles y ON y.id = l.cycle_id JOIN formulations f ON f.id = l.formulation_id \
-     JOIN containers c ON c.id = l.container_id";
+     JOIN containers c ON c.id = l.container_id LEFT JOIN dryers d ON d.id = l.dryer_id";
 
 fn to_link(r: LinkRow) -> CycleLink {
     CycleLink {
@@ -110,6 +115,10 @@ fn to_link(r: LinkRow) -> CycleLink {
         container_id: r.container_id,
         container_name: r.container_name,
         fill_volume_ml: r.fill_volume_ml,
+        dryer_id: r.dryer_id,
+        dryer_name: r.dryer_name,
+        vial_count: r.vial_count,
+        edge_vial_share: r.edge_vial_share,
     }
 }
 
@@ -306,20 +315,28 @@ impl Store {
         if let Err(AppError::NotFound(_)) = self.get_container(d.container_id).await {
             return Err(AppError::input("container_id", "unknown container"));
         }
+        if let Some(dryer_id) = d.dryer_id {
+            if let Err(AppError::NotFound(_)) = self.get_dryer(dryer_id).await {
+                return Err(AppError::input("dryer_id", "unknown dryer"));
+            }
+        }
         let at = now();
         let mut w = self
             .begin_write(actor, Target::update(Entity::Cycle, cycle_id, None), "")
             .await?;
         let id = on_tx!(&mut w.tx, c => {
             let (id,): (i64,) = sqlx::query_as(
-                "INSERT INTO cycle_links (cycle_id, formulation_id, container_id, fill_volume_ml, created_at) \
-                 VALUES ($1, $2, $3, $4, $5) RETURNING id",
+                "INSERT INTO cycle_links (cycle_id, formulation_id, container_id, fill_volume_ml, created_at, \
+                 dryer_id, vial_count, edge_vial_share) VALUES ($1, $2, $3, $4, $5, $6, $7, $8) RETURNING id",
             )
             .bind(cycle_id)
             .bind(d.formulation_id)
             .bind(d.container_id)
             .bind(d.fill_volume_ml)
             .bind(at)
+            .bind(d.dryer_id)
+            .bind(d.vial_count)
+            .bind(d.edge_vial_share)
             .fetch_one(&mut **c)
             .await
             .map_err(|e| on_constraint(e, "formulation_id", "this formulation is already linked to the cycle in that container"))?;

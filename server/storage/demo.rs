@@ -41,6 +41,12 @@ struct DemoLink {
     formulation: String,
     container: String,
     fill_volume_ml: f64,
+    #[serde(default)]
+    dryer: Option<String>,
+    #[serde(default)]
+    vial_count: Option<i64>,
+    #[serde(default)]
+    edge_vial_share: Option<f64>,
 }
 
 #[derive(Deserialize)]
@@ -178,6 +184,7 @@ impl Store {
             materials = self.list_materials().await?;
         }
         let containers = self.list_containers().await?;
+        let dryers = self.list_dryers().await?;
         let today = time::OffsetDateTime::now_utc().date();
         let count = demo.formulations.len();
         for (index, f) in demo.formulations.into_iter().enumerate() {
@@ -360,6 +367,18 @@ impl Store {
                             c.name, l.container
                         ))
                     })?;
+                let dryer_id = match &l.dryer {
+                    None => None,
+                    Some(name) => Some(
+                        dryers
+                            .iter()
+                            .find(|d| d.name.eq_ignore_ascii_case(name))
+                            .map(|d| d.id)
+                            .ok_or_else(|| {
+                                bad_demo(format!("cycle {}: unknown dryer {name}", c.name))
+                            })?,
+                    ),
+                };
                 self.create_link(
                     &scientist,
                     id,
@@ -367,6 +386,9 @@ impl Store {
                         formulation_id,
                         container_id,
                         fill_volume_ml: l.fill_volume_ml,
+                        dryer_id,
+                        vial_count: l.vial_count,
+                        edge_vial_share: l.edge_vial_share,
                     },
                 )
                 .await?;

@@ -6,6 +6,7 @@ pub mod backup;
 mod containers;
 mod cycles;
 pub mod demo;
+mod dryers;
 mod formulations;
 mod library;
 mod materials;

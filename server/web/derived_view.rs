@@ -83,10 +83,19 @@ pub fn view(d: &Derived) -> DerivedView {
                 EstimateStatus::Flagged => "Estimated, with a flag",
                 EstimateStatus::Refused => "Not estimated",
             };
+            // A minority crystallizer without a Tg′ may leave the estimate too warm: say so
+            // beside the value, not only in the reasoning.
+            let status = if e.may_be_too_warm && e.status != EstimateStatus::Refused {
+                format!(
+                    "{status}; may be too warm: a component that may stay amorphous has no                      Tg′, so measure Tg′ of the formulation"
+                )
+            } else {
+                status.to_string()
+            };
             (
                 e.estimate_tg_prime_c.map(c).unwrap_or_else(|| "—".into()),
-                status.to_string(),
-                e.status == EstimateStatus::Flagged,
+                status,
+                e.status == EstimateStatus::Flagged || e.may_be_too_warm,
                 e.reasoning.clone(),
             )
         }

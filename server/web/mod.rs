@@ -7,6 +7,7 @@ mod calculators;
 mod containers;
 mod cycles;
 mod derived_view;
+mod dryers;
 pub mod errors;
 pub mod extract;
 pub mod fmt;
@@ -46,6 +47,7 @@ pub fn router() -> Router<AppState> {
         .merge(measurements::router())
         .merge(materials::router())
         .merge(containers::router())
+        .merge(dryers::router())
         .merge(cycles::router())
         .merge(calculators::router())
         .merge(sign_in::router())
