@@ -246,10 +246,11 @@ try {
   const signatures = await rev.$$eval('li.signature', (lis) => lis.map((li) => li.textContent.replace(/\s+/g, ' ').trim()));
   const mine = signatures.find((s) => s.includes('Tobias Okafor'));
   check(mine !== undefined && /^Reviewed by Tobias Okafor at /.test(mine), `the history shows the signature with the full name: ${signatures.join(' | ')}`);
-  const when = /at (\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(?:\.\d+)?Z) UTC/.exec(mine ?? '');
-  const signedAt = when ? Date.parse(when[1]) : NaN;
-  check(when !== null && signedAt >= before - 2000 && signedAt <= after + 2000,
-    `the signature carries the UTC time it was made (${when?.[1]}, between ${new Date(before).toISOString()} and ${new Date(after).toISOString()})`);
+  // Shown to the second ("2026-12-02 13:35:20 UTC"); an RFC 3339 time is read too.
+  const when = /at (\d{4}-\d\d-\d\d)[T ](\d\d:\d\d:\d\d(?:\.\d+)?)Z? UTC/.exec(mine ?? '');
+  const signedAt = when ? Date.parse(`${when[1]}T${when[2]}Z`) : NaN;
+  check(when !== null && signedAt >= Math.floor(before / 1000) * 1000 - 1000 && signedAt <= after + 1000,
+    `the signature carries the UTC time it was made (${when?.[0]}, between ${new Date(before).toISOString()} and ${new Date(after).toISOString()})`);
   check((mine ?? '').includes('Checked against the raw thermogram'), 'the history shows the reason given');
   check((mine ?? '').includes('(the current content)'), 'the signature holds for the current content');
   const queue = await rev.goto(`${base}/review`);
