@@ -122,3 +122,12 @@ on_both_backends! {
         assert_eq!(r.status, StatusCode::PAYLOAD_TOO_LARGE, "{}", r.body);
     }
 }
+
+on_both_backends! {
+    async fn signed_in_pages_are_not_kept_by_the_browser(app) {
+        let page = app.get("/formulations").await;
+        assert_eq!(page.headers.get("cache-control").and_then(|v| v.to_str().ok()), Some("no-store"));
+        let login = app.client(None).get("/login").await;
+        assert!(login.headers.get("cache-control").is_none(), "the public sign-in page may be cached");
+    }
+}

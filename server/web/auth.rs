@@ -254,8 +254,17 @@ pub async fn authorize(State(state): State<AppState>, req: Request, next: Next) 
         req.extensions_mut().insert(actor.clone());
     }
     let user_id = actor.as_ref().and_then(|a| a.user_id);
+    let signed_in = actor.is_some();
     let context = PageContext { user: actor, csrf };
-    let response = PAGE.scope(context, next.run(req)).await;
+    let mut response = PAGE.scope(context, next.run(req)).await;
+    // What a signed-in person saw stays out of the browser's cache, so Back after
+    // signing out asks the server again (and lands on the sign-in page).
+    if signed_in && !response.headers().contains_key(header::CACHE_CONTROL) {
+        response.headers_mut().insert(
+            header::CACHE_CONTROL,
+            axum::http::HeaderValue::from_static("no-store"),
+        );
+    }
     tracing::info!(
         user_id,
         %method,
