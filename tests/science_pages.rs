@@ -149,3 +149,29 @@ on_both_backends! {
         assert!(page.contains("may be too warm: a component that may stay amorphous has no"), "the flag is shown beside the value, not only in the reasoning");
     }
 }
+
+on_both_backends! {
+    async fn a_minority_salt_s_eutectic_lowers_the_limit_below_a_warmer_collapse_onset(app) {
+        // Any crystallizing component's Te bounds the limit, whatever its share: NaCl–water
+        // eutectic −21.1 °C (Drebushchak et al. 2017, Thermochim. Acta 647:94, as shipped in
+        // the library) lies below a measured collapse onset of −18 °C, so the limit is
+        // −21.1 − 2 (the default margin) = −23.1 °C, not −18 − 2 = −20.0 °C.
+        let sucrose = app.material_id("Sucrose").await;
+        let salt = app.material_id("Sodium chloride").await;
+        let r = app.post_json("/api/v1/formulations", &serde_json::json!({
+            "code": "TE-1", "name": "Sucrose with saline",
+            "components": [{"material_id": sucrose, "concentration": 50.0, "unit": "mg/mL"},
+                           {"material_id": salt, "concentration": 9.0, "unit": "mg/mL"}]
+        })).await;
+        assert_eq!(r.status, StatusCode::CREATED, "{}", r.body);
+        let id = r.json()["id"].as_i64().unwrap();
+        let m = app.post_json("/api/v1/measurements", &serde_json::json!({
+            "formulation_id": id, "kind": "tc_onset", "value_c": -18.0, "method": "fdm",
+            "analyst": "Test analyst", "measured_on": "2026-11-30"
+        })).await;
+        assert_eq!(m.status, StatusCode::CREATED, "{}", m.body);
+        let page = app.get(&format!("/formulations/{id}")).await.body;
+        assert!(page.contains("−23.1 °C"), "the limit follows the salt's eutectic: {page}");
+        assert!(!page.contains("<p class=\"big\">−20.0 °C</p>"), "not the collapse onset minus the margin");
+    }
+}
