@@ -274,6 +274,9 @@ mod tests {
     fn utf16_without_a_bom_and_binary_are_refused() {
         let e = lines(&[b'1', 0, b';', 0, b'2', 0]).unwrap_err();
         assert_eq!(e.field, "encoding");
-        assert_eq!(lines(&[1, 2, 0, 0, 0, 0, 0, 9, 0, 0]).unwrap_err().field, "file");
+        assert_eq!(
+            lines(&[1, 2, 0, 0, 0, 0, 0, 9, 0, 0]).unwrap_err().field,
+            "file"
+        );
     }
 }

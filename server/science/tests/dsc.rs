@@ -7,7 +7,7 @@ use glasspoint_science::calc;
 use glasspoint_science::dsc::{analyse, DscAnalysisInput, Exo, HeatFlowUnit, PeakKind};
 use serde_json::json;
 
-#[path = "dsc_fpex0.rs"]
+#[path = "dsc/fpex0.rs"]
 mod fpex0;
 
 /// Tolerance on characteristic temperatures of the synthetic fixtures, as the brief and
