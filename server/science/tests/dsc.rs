@@ -263,3 +263,42 @@ fn the_topic_answers_the_documented_shape() {
     assert_eq!(out["windows"]["glass_transition_c"], json!([-55.0, -25.0]));
     assert_eq!(out["peaks"], json!([]));
 }
+
+mod never_panics {
+    use glasspoint_science::dsc::{analyse, DscAnalysisInput, Exo, HeatFlowUnit};
+    use proptest::prelude::*;
+
+    proptest! {
+        #![proptest_config(ProptestConfig::with_cases(256))]
+
+        /// Whatever the trace and windows, the analysis answers a result or an error.
+        #[test]
+        fn any_trace_and_windows_give_a_result_or_an_error(
+            steps in proptest::collection::vec(0.0f64..3.0, 0..300),
+            flows in proptest::collection::vec(-1e3f64..1e3, 0..300),
+            gt in proptest::option::of((-100.0f64..300.0, -100.0f64..300.0)),
+            peaks in proptest::option::of(proptest::collection::vec((-100.0f64..300.0, 0.0f64..50.0), 0..4)),
+            smoothing in proptest::option::of(0usize..100),
+        ) {
+            let mut t = Vec::with_capacity(steps.len());
+            let mut x = -60.0;
+            for s in &steps {
+                x += s;
+                t.push(x);
+            }
+            let n = t.len().min(flows.len());
+            let input = DscAnalysisInput {
+                temperature_c: t[..n].to_vec(),
+                heat_flow: flows[..n].to_vec(),
+                glass_transition_window_c: gt.map(|(a, b)| [a, b]),
+                peak_windows_c: peaks.map(|p| p.iter().map(|&(lo, w)| [lo, lo + w]).collect()),
+                exo: Exo::Up,
+                sample_mass_mg: Some(5.0),
+                heating_rate_c_min: Some(10.0),
+                heat_flow_unit: HeatFlowUnit::MilliWatt,
+                smoothing_points: smoothing,
+            };
+            let _ = analyse(&input);
+        }
+    }
+}
