@@ -161,6 +161,27 @@ fn an_exotherm_is_found_as_one_whichever_way_it_is_drawn() {
     }
 }
 
+/// On cooling the leading edge is the high-temperature side (ASTM E794's leading edge is
+/// the one met first). Check values: the Gaussian's tangent intersections, mirrored, from
+/// its inflection at Tp ± σ (the tangent meets the baseline at T − g/g' there).
+#[test]
+fn on_cooling_the_onset_is_on_the_high_temperature_side() {
+    let (tp, sigma) = (-20.0, 1.5);
+    let t: Vec<f64> = (0..=600).map(|i| 10.0 - f64::from(i) / 10.0).collect();
+    let g = |x: f64| (-(x - tp).powi(2) / (2.0 * sigma * sigma)).exp();
+    let dg = |x: f64| -(x - tp) / (sigma * sigma) * g(x);
+    let high = tp + sigma - g(tp + sigma) / dg(tp + sigma);
+    let low = tp - sigma - g(tp - sigma) / dg(tp - sigma);
+    // A crystallization exotherm drawn up (exotherm up).
+    let hf = t.iter().map(|&x| g(x)).collect();
+    let mut inp = input(t, hf, Exo::Up);
+    inp.peak_windows_c = Some(vec![[tp - 8.0 * sigma, tp + 8.0 * sigma]]);
+    let p = analyse(&inp).expect("analyses").peaks[0].peak.clone();
+    assert_eq!(p.kind, PeakKind::Exotherm);
+    assert_abs_diff_eq!(p.onset_c, high, epsilon = 0.05);
+    assert_abs_diff_eq!(p.end_c, low, epsilon = 0.05);
+}
+
 #[test]
 fn suggested_windows_find_the_tg_prime_step_below_the_ice_melt() {
     // A frozen-solution heating run drawn from the fixtures above: a Tg' step (tanh, Tm

@@ -7,8 +7,9 @@
 //! so uneven sampling needs no interpolation. The polynomial is quadratic: for a window
 //! symmetric about the point its value equals the cubic fit's, so a symmetric peak or an
 //! odd step keeps its position (smoothing does not shift transitions); only its height and
-//! sharpness are slightly reduced, by about h²/(5w²) for a feature of width w smoothed over
-//! ±h. Near the ends of the trace the window is shifted inwards and keeps its size.
+//! sharpness are slightly reduced: the slope by f'''·h²/(10·f') on a uniform window of ±h
+//! (a Taylor expansion of the least-squares slope; h²/(5w²) at the middle of a tanh step
+//! of width w). Near the ends of the trace the window is shifted inwards and keeps its size.
 
 /// Smoothed values and their derivative d/dT at every point of `t`.
 #[derive(Debug, Clone, PartialEq)]
