@@ -104,7 +104,7 @@ enum Command {
     Calc {
         /// ice-vapor-pressure, mixture-tg, cake-tg, cake-moisture-limit, product-limit,
         /// formulation-estimate, annealing-advice, gordon-taylor-fit, primary-drying,
-        /// design-space, suggest-primary-drying, cycle-check
+        /// design-space, suggest-primary-drying, cycle-check, dsc-analysis
         topic: String,
         /// Read the input from this file instead of standard input.
         #[arg(long)]

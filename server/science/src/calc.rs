@@ -22,6 +22,7 @@ pub const TOPICS: &[&str] = &[
     "design-space",
     "suggest-primary-drying",
     "cycle-check",
+    "dsc-analysis",
 ];
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -51,6 +52,7 @@ pub fn run(topic: &str, input: Value) -> Result<Value, CalcError> {
         "design-space" => crate::design_space::calc_design_space(input),
         "suggest-primary-drying" => crate::suggest::calc_suggest_primary_drying(input),
         "cycle-check" => crate::verdict::calc_cycle_check(input),
+        "dsc-analysis" => crate::dsc::calc_dsc_analysis(input),
         other => return Err(CalcError::UnknownTopic(other.to_string())),
     };
     Ok(out?)

@@ -13,6 +13,7 @@ pub mod composition;
 pub mod design_space;
 pub mod dryer;
 pub mod drying;
+pub mod dsc;
 pub mod error;
 pub mod fit;
 pub mod gauge;

@@ -1,0 +1,17 @@
+//! Any bytes: the reader answers a trace or an error, and never panics.
+#![no_main]
+
+use glasspoint_import::{read_dsc, ColumnChoice, Limits};
+use libfuzzer_sys::fuzz_target;
+
+fuzz_target!(|data: &[u8]| {
+    let limits = Limits {
+        max_rows: 10_000,
+        ..Limits::default()
+    };
+    if let Ok(import) = read_dsc(data, limits, ColumnChoice::default()) {
+        for i in 0..import.segments.len() {
+            let _ = import.segment_trace(i);
+        }
+    }
+});
