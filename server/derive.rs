@@ -344,9 +344,9 @@ pub const SOLUTION_DENSITY_G_ML: f64 = 1.0;
 /// 1.5–1.6 (sucrose 1.59, mannitol 1.52; from memory).
 pub const DEFAULT_SOLID_DENSITY_G_CM3: f64 = 1.5;
 
-/// Unfrozen water of the freeze-concentrate, g per g of amorphous solids: sucrose's
-/// 0.2–0.25 (Roos 1993; Ablett, Izzard & Lillford 1992; from memory), the low end taken for
-/// every amorphous solid until the library holds its own.
+/// Unfrozen water of the freeze-concentrate, g per g of amorphous solids, for a material
+/// whose library entry has no Wg′: sucrose's 0.2–0.25 (Roos 1993; Ablett, Izzard &
+/// Lillford 1992; from memory), the low end.
 pub const UNFROZEN_WATER_G_PER_G_AMORPHOUS: f64 = 0.2;
 
 /// The solution's density from its composition: each solute's partial specific volume
@@ -401,15 +401,21 @@ pub async fn team_basis(store: &Store, server_margin_c: f64) -> Result<TeamBasis
     })
 }
 
-/// Unfrozen water per g of all solids: the amorphous solids' share × Wg′.
-pub fn unfrozen_water(f: &Formulation) -> f64 {
-    let amorphous: f64 = f
-        .components
+/// Unfrozen water per g of all solids: each amorphous solid's share × its Wg′ from the
+/// library (with its source there), else the stated default.
+pub fn unfrozen_water(f: &Formulation, materials: &[Material]) -> f64 {
+    f.components
         .iter()
         .filter(|c| c.freezing_behaviour != FreezingBehaviour::Crystallizes)
-        .map(|c| c.solid_fraction)
-        .sum();
-    UNFROZEN_WATER_G_PER_G_AMORPHOUS * amorphous
+        .map(|c| {
+            let wg = materials
+                .iter()
+                .find(|m| m.id == c.material_id)
+                .and_then(|m| m.value(PropertyKind::UnfrozenWater))
+                .unwrap_or(UNFROZEN_WATER_G_PER_G_AMORPHOUS);
+            c.solid_fraction * wg
+        })
+        .sum()
 }
 
 /// A stated default dry-layer resistance for a solids content, used until the team
@@ -457,7 +463,7 @@ pub fn drying_base(
         fill_volume_ml,
         solids_mass_fraction: f.solids_mass_fraction(density),
         solution_density_g_ml: Some(density),
-        unfrozen_water_g_per_g_solids: Some(unfrozen_water(f)),
+        unfrozen_water_g_per_g_solids: Some(unfrozen_water(f, materials)),
         vial: Vial {
             inner_area_cm2: container.inner_area_cm2,
             outer_area_cm2: container.outer_area_cm2,

@@ -312,3 +312,15 @@ on_both_backends! {
         assert!(sucrose["caution"].as_str().unwrap().contains("do not replace"));
     }
 }
+
+on_both_backends! {
+    async fn the_link_page_states_the_ice_per_vial_and_where_its_inputs_come_from(app) {
+        app.load_demo().await;
+        let cycle = app.store.cycle_id_by_name("Larchvale platform A").await.unwrap().unwrap();
+        let link = app.store.links_of_cycle(cycle).await.unwrap().into_iter().next().expect("a demo link");
+        let page = app.get(&format!("/cycles/{cycle}/links/{}", link.id)).await.body;
+        assert!(page.contains("Ice per vial"), "{page}");
+        assert!(page.contains("the water that never freezes"));
+        assert!(page.contains("library Wg′"));
+    }
+}

@@ -43,3 +43,15 @@ on_both_backends! {
         assert_eq!(after, before + first.materials, "the library is installed once");
     }
 }
+
+on_both_backends! {
+    async fn the_library_holds_sucrose_s_unfrozen_water_with_its_source(app) {
+        // Sucrose's maximally freeze-concentrated solution holds about 0.2–0.25 g water per g
+        // (Roos 1993; Ablett, Izzard & Lillford 1992; from memory).
+        let sucrose = app.store.get_material(app.material_id("Sucrose").await).await.unwrap();
+        let wg = sucrose.value(PropertyKind::UnfrozenWater).expect("Wg′ of sucrose");
+        assert!((0.2..=0.25).contains(&wg), "{wg}");
+        let p = sucrose.properties.iter().find(|p| p.kind == PropertyKind::UnfrozenWater).unwrap();
+        assert!(p.citation.contains("Roos (1993)"), "the value names its source");
+    }
+}

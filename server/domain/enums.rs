@@ -73,6 +73,7 @@ labelled_enum!(
         TgPrimeBlendK => ("tg_prime_blend_k", "Gordon–Taylor k in Tg′ blends"),
         Density => ("density_g_cm3", "Density (g/cm³)"),
         MolarMass => ("molar_mass_g_mol", "Molar mass (g/mol)"),
+        UnfrozenWater => ("unfrozen_water_g_g", "Unfrozen water Wg′ (g per g solid)"),
     }
 );
 
@@ -153,6 +154,7 @@ impl PropertyKind {
             PropertyKind::GordonTaylorK | PropertyKind::TgPrimeBlendK => (0.0, 100.0),
             PropertyKind::Density => (0.1, 25.0),
             PropertyKind::MolarMass => (1.0, 1.0e7),
+            PropertyKind::UnfrozenWater => (0.0, 2.0),
         }
     }
 

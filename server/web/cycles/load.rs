@@ -89,6 +89,33 @@ pub fn batch_facts(a: &Assessment, b: &BatchResult) -> Vec<(String, String)> {
             },
         )),
     }
+    let base = &a.base;
+    let density = base.solution_density_g_ml.unwrap_or(1.0);
+    let unfrozen = base.unfrozen_water_g_per_g_solids.unwrap_or(0.0);
+    rows.push((
+        "Ice per vial".into(),
+        format!(
+            "{} g: {} mL at {} g/mL, less the solids ({}) and the water that never freezes ({} g per g of solids)",
+            fmt::num2(glasspoint_science::drying::ice_mass_g(
+                base.fill_volume_ml,
+                density,
+                base.solids_mass_fraction,
+                unfrozen
+            )),
+            fmt::trim(base.fill_volume_ml),
+            fmt::trim(density),
+            fmt::percent(base.solids_mass_fraction),
+            fmt::num2(unfrozen)
+        ),
+    ));
+    rows.push((
+        "Where those come from".into(),
+        format!(
+            "Density from the composition, each solid at its library density or else {} g/cm³ (from memory); unfrozen water from each amorphous solid's library Wg′ or else {} g/g (sucrose, Roos 1993, from memory).",
+            fmt::trim(crate::derive::DEFAULT_SOLID_DENSITY_G_CM3),
+            fmt::trim(crate::derive::UNFROZEN_WATER_G_PER_G_AMORPHOUS)
+        ),
+    ));
     rows.push((
         "Edge share of the load".into(),
         match a.link.edge_vial_share {
