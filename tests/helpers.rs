@@ -18,6 +18,8 @@ pub struct TestApp {
     pub store: Store,
     /// The administrator every plain request is sent as.
     pub admin: TestSession,
+    /// The database URL, for opening a second, independent connection pool.
+    pub url: String,
     /// Keeps the SQLite file alive for the test's duration.
     _dir: Option<tempfile::TempDir>,
     /// PostgreSQL database to drop afterwards: (admin URL, name).
@@ -105,11 +107,12 @@ pub async fn sign_in(store: &Store, username: &str, role: Role) -> TestSession {
 impl TestApp {
     async fn build(
         store: Store,
+        url: String,
         dir: Option<tempfile::TempDir>,
         pg: Option<(String, String)>,
     ) -> TestApp {
         let admin = sign_in(&store, "admin", Role::Admin).await;
-        Self::build_with(store, dir, pg, Config::for_database("test"), admin)
+        Self::build_with(store, dir, pg, Config::for_database("test"), admin, url)
     }
 
     fn build_with(
@@ -118,12 +121,14 @@ impl TestApp {
         pg: Option<(String, String)>,
         config: Config,
         admin: TestSession,
+        url: String,
     ) -> TestApp {
         let state = AppState::new(store.clone(), config);
         TestApp {
             router: glasspoint::router(state),
             store,
             admin,
+            url,
             _dir: dir,
             pg,
         }
@@ -145,7 +150,7 @@ impl TestApp {
         let url = format!("sqlite://{}", dir.path().join("test.db").display());
         let store = Store::connect(&url).await.expect("connect sqlite");
         store.migrate().await.expect("migrate sqlite");
-        Self::build(store, Some(dir), None).await
+        Self::build(store, url, Some(dir), None).await
     }
 
     /// The same app with a team safety margin other than the default.
@@ -157,9 +162,10 @@ impl TestApp {
             _dir,
             pg,
             admin,
+            url,
             ..
         } = self;
-        Self::build_with(store, _dir, pg, config, admin)
+        Self::build_with(store, _dir, pg, config, admin, url)
     }
 
     /// The same app with its configuration changed by `change`.
@@ -171,9 +177,10 @@ impl TestApp {
             _dir,
             pg,
             admin,
+            url,
             ..
         } = self;
-        Self::build_with(store, _dir, pg, config, admin)
+        Self::build_with(store, _dir, pg, config, admin, url)
     }
 
     /// A fresh, migrated PostgreSQL database, when `TEST_DATABASE_URL` names a server.
@@ -205,7 +212,7 @@ impl TestApp {
         let url = replace_database(&admin, &name);
         let store = Store::connect(&url).await.expect("connect postgres");
         store.migrate().await.expect("migrate postgres");
-        Some(Self::build(store, None, Some((admin, name))).await)
+        Some(Self::build(store, url, None, Some((admin, name))).await)
     }
 
     pub async fn load_demo(&self) {

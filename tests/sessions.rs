@@ -111,8 +111,9 @@ on_both_backends! {
         app.user("ses-a", Role::Reader).await;
         let cookie = log_in(&app.router, "ses-a", "10.1.0.1").await;
         assert!(works(&app.router, &cookie).await);
-        // A new app over the same database: a restart, or a second instance.
-        let other = second_instance(&app.store);
+        // A second instance: its own connection pool to the same database.
+        let own_pool = Store::connect(&app.url).await.unwrap();
+        let other = second_instance(&own_pool);
         assert!(works(&other, &cookie).await, "the other instance knows the session");
         let csrf = csrf_of(&app.store, &cookie).await;
         let out = send(&other, Request::post("/logout")
@@ -124,6 +125,7 @@ on_both_backends! {
         assert!(set_cookie(&out).contains("Max-Age=0"), "the browser is told to forget the cookie");
         assert!(!works(&other, &cookie).await, "signed out here");
         assert!(!works(&app.router, &cookie).await, "and on the first instance too");
+        own_pool.close().await;
     }
 }
 
