@@ -171,3 +171,98 @@ fn dryer_list_shows_the_shipped_typical_dryer_marked_as_typical() {
     );
     assert!(text.contains("100 mTorr → 1 kg/h"), "{text}");
 }
+
+/// Runs `glasspoint ARGS` with `stdin` as standard input (not a terminal).
+fn run_with_stdin(args: &[&str], stdin: &str) -> (i32, String, String) {
+    let mut child = Command::new(binary())
+        .args(args)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("run glasspoint");
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(stdin.as_bytes())
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn accounts_are_managed_on_the_console_with_passwords_from_standard_input() {
+    let dir = tempfile::tempdir().unwrap();
+    let db = format!("sqlite://{}", dir.path().join("users.db").display());
+    let db = db.as_str();
+    // A password and its identical confirmation on the second line.
+    let (code, _, err) = run_with_stdin(
+        &[
+            "user",
+            "add",
+            "ada",
+            "--role",
+            "admin",
+            "--full-name",
+            "Ada Example",
+            "--database",
+            db,
+        ],
+        "a long enough password\na long enough password\n",
+    );
+    assert_eq!(code, 0, "{err}");
+    // A confirmation that differs is refused, naming the field; nothing is created.
+    let (code, _, err) = run_with_stdin(
+        &["user", "add", "bob", "--role", "reader", "--database", db],
+        "first password here\nsecond password here\n",
+    );
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("password"), "{err}");
+    // Too short, and an unknown role: exit 2 naming what is wrong.
+    let (code, _, err) = run_with_stdin(
+        &["user", "add", "cy", "--role", "reader", "--database", db],
+        "short\n",
+    );
+    assert_eq!(code, 2);
+    assert!(
+        err.contains("password") && err.contains("at least"),
+        "{err}"
+    );
+    let (code, _, err) = run_with_stdin(
+        &["user", "add", "cy", "--role", "boss", "--database", db],
+        "a long enough password\n",
+    );
+    assert_eq!(code, 2);
+    assert!(err.contains("--role"), "{err}");
+    let (code, out, _) = run_with_stdin(&["user", "list", "--database", db], "");
+    assert_eq!(code, 0);
+    assert!(out.contains("ada\tadmin\tactive\tAda Example"), "{out}");
+    assert!(!out.contains("bob"), "the refused account was not created");
+    // A token is printed once, on standard output.
+    let (code, out, _) = run_with_stdin(
+        &["user", "token", "ada", "--scope", "read", "--database", db],
+        "",
+    );
+    assert_eq!(code, 0);
+    assert!(
+        out.trim().starts_with("gpt_") && out.trim().len() > 40,
+        "{out}"
+    );
+    let (code, _, _) = run_with_stdin(
+        &["user", "passwd", "ada", "--database", db],
+        "another long password\n",
+    );
+    assert_eq!(code, 0);
+    let (code, _, _) = run_with_stdin(&["user", "disable", "ada", "--database", db], "");
+    assert_eq!(code, 0);
+    let (_, out, _) = run_with_stdin(&["user", "list", "--database", db], "");
+    assert!(out.contains("ada\tadmin\tdisabled"), "{out}");
+    // Every one of those changes is in the audit trail, attributed to the console.
+    let (code, out, _) = run_with_stdin(&["audit", "verify", "--database", db], "");
+    assert_eq!(code, 0, "{out}");
+}
