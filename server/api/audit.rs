@@ -1,6 +1,7 @@
 //! `GET /api/v1/audit`: the audit trail as JSON, filtered like the audit page.
 
-use axum::extract::{Query, State};
+use super::extract::Query;
+use axum::extract::State;
 use axum::routing::get;
 use axum::{Json, Router};
 

@@ -1,11 +1,12 @@
 //! Team administration: accounts, API tokens, team settings and the audit-trail check.
 
+use super::extract::{Form, Path};
 use askama::Template;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::http::StatusCode;
 use axum::response::Response;
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use serde::Deserialize;
 
 use super::{render, render_status, see_other};

@@ -1,11 +1,12 @@
 //! Signing in and out, and the page a fresh installation shows before any account exists.
 
+use super::extract::{Form, Query};
 use askama::Template;
-use axum::extract::{ConnectInfo, Query, State};
+use axum::extract::{ConnectInfo, State};
 use axum::http::{header, Extensions, HeaderMap, HeaderValue, StatusCode};
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
-use axum::{Form, Router};
+use axum::Router;
 use serde::Deserialize;
 
 use super::auth::{cookie_value, SESSION_COOKIE};

@@ -1,7 +1,8 @@
 //! The audit trail for reviewers and administrators: filter, page through, export as CSV.
 
+use crate::web::extract::Query;
 use askama::Template;
-use axum::extract::{Query, State};
+use axum::extract::State;
 use axum::http::header;
 use axum::response::{IntoResponse, Response};
 use serde::Deserialize;

@@ -1,8 +1,9 @@
 //! A record's history: every event, its signatures, any version, and two versions side by
 //! side.
 
+use crate::web::extract::{Path, Query};
 use askama::Template;
-use axum::extract::{Path, Query, State};
+use axum::extract::State;
 use axum::response::Response;
 use serde::Deserialize;
 

@@ -1,10 +1,10 @@
 //! Electronic signatures: the signer reads the exact version, states a meaning, and
 //! enters their password again.
 
+use crate::web::extract::{Form, Path};
 use askama::Template;
-use axum::extract::{Path, State};
+use axum::extract::State;
 use axum::response::Response;
-use axum::Form;
 use serde::Deserialize;
 
 use super::{entity, flatten};
