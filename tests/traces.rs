@@ -287,3 +287,61 @@ on_both_backends! {
         assert_eq!(app.store.count_traces().await.unwrap(), 1);
     }
 }
+
+on_both_backends! {
+    async fn ambiguous_columns_show_a_preview_and_the_analysts_choice_is_used(app) {
+        let fid = new_formulation(&app, "TR-AMB").await;
+        let session = app.admin.clone();
+        let mut file = String::from("Program temperature (°C),Reference temperature (°C),Heat flow (mW)\n");
+        for i in 0..400 {
+            let t = -60.0 + 0.1 * i as f64;
+            file.push_str(&format!("{t:.2},{:.2},{:.5}\n", t + 0.5, 0.002 * t));
+        }
+        let body = multipart(Some(&session.csrf), &[("heating_rate_c_min", "2"), ("notes", "two sensors")], "amb.csv", file.as_bytes());
+        let r = upload(&app, &session, fid, body).await;
+        assert_eq!(r.status, StatusCode::UNPROCESSABLE_ENTITY, "{}", r.body);
+        assert!(r.body.contains("Reference temperature") && r.body.contains("name=\"temperature_column\""), "a preview and a choice");
+        assert!(r.body.contains("two sensors") && r.body.contains("value=\"2\""), "typed fields are kept");
+        assert_eq!(app.store.count_traces().await.unwrap(), 0, "nothing stored until chosen");
+        let body = multipart(Some(&session.csrf), &[("temperature_column", "1"), ("heat_flow_column", "2")], "amb.csv", file.as_bytes());
+        let r = upload(&app, &session, fid, body).await;
+        assert_eq!(r.status, StatusCode::SEE_OTHER, "{}", r.body);
+        let tid: i64 = r.location.unwrap().rsplit('/').next().unwrap().parse().unwrap();
+        let data = app.store.trace_data(tid).await.unwrap();
+        assert!((data.temperature_c[0] - (-59.5)).abs() < 1e-9, "the chosen column is the temperature");
+    }
+}
+
+#[tokio::test]
+async fn an_upload_over_its_limit_is_refused_with_that_limit_named() {
+    let app = TestApp::sqlite().await;
+    let fid = new_formulation(&app, "TR-BIG").await;
+    let limit = glasspoint::domain::traces::MAX_TRACE_BYTES;
+    let req = Request::post(format!(
+        "/api/v1/formulations/{fid}/traces?file_name=big.csv"
+    ))
+    .header(header::CONTENT_TYPE, "application/octet-stream")
+    .header(header::CONTENT_LENGTH, (limit + 1).to_string())
+    .body(Body::from(vec![b'1'; limit + 1]))
+    .unwrap();
+    let r = app.client(Some(&app.admin)).request(req).await;
+    assert_eq!(r.status, StatusCode::PAYLOAD_TOO_LARGE);
+    assert!(
+        r.json()["error"]
+            .as_str()
+            .unwrap()
+            .contains(&limit.to_string()),
+        "{}",
+        r.body
+    );
+    // Elsewhere the general limit still holds.
+    let r = app
+        .post_json(
+            "/api/v1/formulations",
+            &serde_json::json!({"code": "x".repeat(300_000)}),
+        )
+        .await;
+    assert_eq!(r.status, StatusCode::PAYLOAD_TOO_LARGE);
+    assert_eq!(app.store.count_traces().await.unwrap(), 0);
+    app.cleanup().await;
+}

@@ -211,6 +211,9 @@ pub struct ColumnPreview {
     pub rows: Vec<Vec<String>>,
     /// (purpose, candidate column indexes, the reader's guess, why it is ambiguous).
     pub ambiguities: Vec<(String, Vec<usize>, usize, String)>,
+    /// The reader's guesses, preselected.
+    pub guess_temperature: usize,
+    pub guess_heat_flow: usize,
 }
 
 /// Why an upload was not stored.
@@ -361,6 +364,8 @@ fn preview(import: &DscImport) -> ColumnPreview {
                 )
             })
             .collect(),
+        guess_temperature: import.columns.temperature,
+        guess_heat_flow: import.columns.heat_flow,
     }
 }
 
