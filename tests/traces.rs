@@ -205,6 +205,16 @@ on_both_backends! {
         assert!((mid - TM_C).abs() < 0.2);
         assert_eq!(j["trace"]["content_sha256"], sha256_hex(&file));
         assert!(j["caution"].as_str().unwrap().contains("qualified"));
+        let doc = app.get("/api/v1/openapi.json").await.json();
+        for path in ["/api/v1/formulations/{id}/traces", "/api/v1/traces/{id}", "/api/v1/traces/{id}/original"] {
+            assert!(doc["paths"].get(path).is_some(), "{path} is documented");
+        }
+        // The trace's history is the audit trail's page for it.
+        let history = app.get(&format!("/records/trace/{tid}/history")).await;
+        assert_eq!(history.status, StatusCode::OK, "{}", history.body);
+        let version = app.get(&format!("/records/trace/{tid}/versions/1")).await;
+        assert_eq!(version.status, StatusCode::OK, "{}", version.body);
+        assert!(version.body.contains(&sha256_hex(&file)), "the version page shows the hash");
     }
 }
 
