@@ -355,3 +355,25 @@ async fn an_upload_over_its_limit_is_refused_with_that_limit_named() {
     assert_eq!(app.store.count_traces().await.unwrap(), 0);
     app.cleanup().await;
 }
+
+#[tokio::test]
+async fn a_trace_longer_than_a_chart_series_is_drawn_as_its_envelope() {
+    let app = TestApp::sqlite().await;
+    let fid = new_formulation(&app, "TR-LONG").await;
+    // 250 001 rows: more than one chart series may carry (200 000).
+    let draft = glasspoint::domain::traces::TraceForm {
+        exo: "down".into(),
+        ..Default::default()
+    }
+    .parse(tanh_trace(250_000))
+    .unwrap();
+    let tid = app
+        .store
+        .create_trace(&glasspoint::auth::Actor::system(), fid, &draft)
+        .await
+        .unwrap();
+    let chart = app.get(&format!("/traces/{tid}/chart.svg")).await;
+    assert_eq!(chart.status, StatusCode::OK, "{}", chart.body);
+    assert!(chart.body.contains("<svg") && chart.body.contains("Tg midpoint"));
+    app.cleanup().await;
+}

@@ -183,7 +183,11 @@ struct DetailPage {
     caution: &'static str,
     /// Query string for the chart, so it shows the same windows.
     chart_query: String,
+    /// The windows shown in the fields (those used, or those typed when they failed).
     windows: WindowQuery,
+    /// The windows as typed (blank: suggested), carried by the save form so the values
+    /// saved are found exactly as shown.
+    typed: WindowQuery,
     errors: FieldErrors,
     segment_text: String,
     glass: Option<glasspoint_science::dsc::topic::GlassTransitionResult>,
@@ -292,6 +296,7 @@ async fn detail_page(
 ) -> Result<(DetailPage, StatusCode), AppError> {
     let f = state.store.get_formulation(t.formulation_id).await?;
     let (data, a) = analysis_of(state, &t, &typed).await?;
+    let typed_fields = typed.clone();
     let mut errors = a.errors;
     for (k, v) in extra_errors.iter() {
         errors.add(k.clone(), v.clone());
@@ -357,6 +362,7 @@ async fn detail_page(
             caution: CAUTION,
             chart_query,
             windows,
+            typed: typed_fields,
             errors,
             segment_text,
             glass,
@@ -447,11 +453,7 @@ async fn chart(
         series: vec![
             Series {
                 name: "Heat flow".into(),
-                points: temperature_c
-                    .iter()
-                    .copied()
-                    .zip(heat_flow.iter().copied())
-                    .collect(),
+                points: envelope(&temperature_c, &heat_flow, CHART_BUCKETS),
                 style: SeriesStyle::Line,
                 color: Some(0),
             },
@@ -473,6 +475,37 @@ async fn chart(
         ..Default::default()
     };
     Ok(svg(render_line_chart(&chart)))
+}
+
+/// Columns of the chart's heat-flow line: longer traces are drawn as each bucket's lowest
+/// and highest point, in order, so no peak is lost.
+const CHART_BUCKETS: usize = 2000;
+
+fn envelope(t: &[f64], y: &[f64], buckets: usize) -> Vec<(f64, f64)> {
+    let n = t.len().min(y.len());
+    if n <= 2 * buckets {
+        return t.iter().copied().zip(y.iter().copied()).take(n).collect();
+    }
+    let size = n.div_ceil(buckets);
+    let mut out = Vec::with_capacity(2 * buckets);
+    for start in (0..n).step_by(size) {
+        let end = (start + size).min(n);
+        let (mut lo, mut hi) = (start, start);
+        for i in start..end {
+            if y[i] < y[lo] {
+                lo = i;
+            }
+            if y[i] > y[hi] {
+                hi = i;
+            }
+        }
+        let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
+        out.push((t[a], y[a]));
+        if b != a {
+            out.push((t[b], y[b]));
+        }
+    }
+    out
 }
 
 async fn original(
