@@ -24,6 +24,7 @@ struct Ids {
     link: i64,
     user: i64,
     token: i64,
+    trace: i64,
 }
 
 async fn demo_ids(app: &TestApp, target_user: i64) -> Ids {
@@ -49,6 +50,22 @@ async fn demo_ids(app: &TestApp, target_user: i64) -> Ids {
         .await
         .unwrap();
     let token = store.list_tokens().await.unwrap().last().unwrap().id;
+    // A DSC trace of its own (the demo has none), so the trace routes answer real pages.
+    let mut file = String::from("Temperature (°C),Heat flow (mW)\n");
+    for i in 0..200 {
+        file.push_str(&format!(
+            "{},{}\n",
+            -60.0 + 0.25 * f64::from(i),
+            0.001 * f64::from(i)
+        ));
+    }
+    let draft = glasspoint::domain::traces::TraceForm::default()
+        .parse(file.into_bytes())
+        .unwrap();
+    let trace = store
+        .create_trace(&Actor::system(), formulation, &draft)
+        .await
+        .unwrap();
     Ids {
         formulation,
         measurement,
@@ -58,6 +75,7 @@ async fn demo_ids(app: &TestApp, target_user: i64) -> Ids {
         link,
         user: target_user,
         token,
+        trace,
     }
 }
 
@@ -78,6 +96,8 @@ fn concrete(path: &str, ids: &Ids) -> String {
         ids.user
     } else if bare.starts_with("/admin/tokens/") {
         ids.token
+    } else if bare.starts_with("/traces/") {
+        ids.trace
     } else {
         0
     };

@@ -24,3 +24,4 @@ mod science_pages;
 mod sessions;
 mod storage;
 mod team_pages;
+mod traces;

@@ -6,6 +6,7 @@ mod cycles;
 pub mod extract;
 mod input;
 mod records;
+mod traces;
 
 use axum::extract::FromRequest;
 use axum::routing::get;
@@ -24,6 +25,7 @@ pub fn router() -> Router<AppState> {
         .merge(cycles::router())
         .merge(calc::router())
         .merge(audit::router())
+        .merge(traces::router())
         .fallback(|| async { ApiError(crate::AppError::NotFound("This API route".into())) })
 }
 
@@ -63,6 +65,9 @@ pub fn router() -> Router<AppState> {
         cycles::create_link,
         calc::calc,
         audit::list_audit,
+        traces::upload_trace,
+        traces::get_trace,
+        traces::get_original,
     ),
     components(schemas(
         input::FormulationInput,

@@ -63,6 +63,13 @@ pub const RULES: &[Rule] = &[
     ),
     rule("POST", "/measurements/{id}", Least(Scientist)),
     rule("GET", "/measurements/{id}/edit", Least(Scientist)),
+    // DSC traces.
+    rule("GET", "/formulations/{id}/traces/new", Least(Scientist)),
+    rule("POST", "/formulations/{id}/traces", Least(Scientist)),
+    rule("GET", "/traces/{id}", Least(Reader)),
+    rule("GET", "/traces/{id}/chart.svg", Least(Reader)),
+    rule("GET", "/traces/{id}/original", Least(Reader)),
+    rule("POST", "/traces/{id}/measurements", Least(Scientist)),
     // Materials and containers.
     rule("GET", "/materials", Least(Reader)),
     rule("POST", "/materials", Least(Scientist)),
@@ -157,6 +164,9 @@ pub const RULES: &[Rule] = &[
     rule("POST", "/api/v1/materials", Least(Scientist)),
     rule("GET", "/api/v1/materials/{id}", Least(Reader)),
     rule("PUT", "/api/v1/materials/{id}", Least(Scientist)),
+    rule("POST", "/api/v1/formulations/{id}/traces", Least(Scientist)),
+    rule("GET", "/api/v1/traces/{id}", Least(Reader)),
+    rule("GET", "/api/v1/traces/{id}/original", Least(Reader)),
     rule("GET", "/api/v1/measurements", Least(Reader)),
     rule("POST", "/api/v1/measurements", Least(Scientist)),
     rule("GET", "/api/v1/measurements/{id}", Least(Reader)),

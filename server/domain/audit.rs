@@ -44,6 +44,7 @@ labelled_enum!(
         Container => ("container", "Container"),
         Dryer => ("dryer", "Dryer"),
         Cycle => ("cycle", "Cycle"),
+        Trace => ("trace", "DSC trace"),
         User => ("user", "User"),
         Settings => ("settings", "Team settings"),
     }
@@ -69,6 +70,7 @@ impl Entity {
             Entity::Container => "containers",
             Entity::Dryer => "dryers",
             Entity::Cycle => "cycles",
+            Entity::Trace => "dsc_traces",
             Entity::User => "users",
             Entity::Settings => "team_settings",
         }
@@ -127,6 +129,7 @@ impl Entity {
             Entity::Container => format!("/records/container/{id}/history"),
             Entity::Dryer => format!("/dryers/{id}"),
             Entity::Cycle => format!("/cycles/{id}"),
+            Entity::Trace => format!("/traces/{id}"),
             Entity::User => "/admin/users".to_string(),
             Entity::Settings => "/admin/settings".to_string(),
         }

@@ -816,6 +816,8 @@ pub struct Measurement {
     #[serde(with = "time::serde::rfc3339")]
     #[schema(value_type = String)]
     pub created_at: OffsetDateTime,
+    /// The DSC trace the value was read from, if any.
+    pub trace_id: Option<i64>,
 }
 
 #[derive(Debug, Clone, PartialEq)]

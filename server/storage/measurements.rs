@@ -28,11 +28,12 @@ struct MeasurementRow {
     review_state: String,
     version: i64,
     created_at: OffsetDateTime,
+    trace_id: Option<i64>,
 }
 
 const SELECT: &str = "SELECT id, formulation_id, kind, value_c, residual_moisture_pct, method, heating_rate_c_min, \
-     sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at \
-     FROM measurements";
+     sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at, \
+     trace_id FROM measurements";
 
 fn to_measurement(r: MeasurementRow) -> Result<Measurement, AppError> {
     Ok(Measurement {
@@ -57,6 +58,7 @@ fn to_measurement(r: MeasurementRow) -> Result<Measurement, AppError> {
         )?,
         version: r.version,
         created_at: r.created_at,
+        trace_id: r.trace_id,
     })
 }
 
@@ -132,6 +134,19 @@ impl Store {
         formulation_id: i64,
         d: &MeasurementDraft,
     ) -> Result<i64, AppError> {
+        self.create_measurement_with_trace(actor, formulation_id, d, None)
+            .await
+    }
+
+    /// Records a result read off a DSC trace of the same formulation (or, with `None`,
+    /// without one).
+    pub async fn create_measurement_with_trace(
+        &self,
+        actor: &Actor,
+        formulation_id: i64,
+        d: &MeasurementDraft,
+        trace_id: Option<i64>,
+    ) -> Result<i64, AppError> {
         let at = now();
         let mut w = self
             .begin_write(actor, Target::create(Entity::Measurement), "")
@@ -144,10 +159,26 @@ impl Store {
             if n == 0 {
                 return Err(AppError::NotFound(format!("Formulation {formulation_id}")));
             }
+            if let Some(trace_id) = trace_id {
+                let (n,): (i64,) = sqlx::query_as(
+                    "SELECT COUNT(*) FROM dsc_traces WHERE id = $1 AND formulation_id = $2",
+                )
+                .bind(trace_id)
+                .bind(formulation_id)
+                .fetch_one(&mut **c)
+                .await?;
+                if n == 0 {
+                    return Err(AppError::input(
+                        "trace_id",
+                        format!("DSC trace {trace_id} is not a trace of this formulation"),
+                    ));
+                }
+            }
             let (id,): (i64,) = sqlx::query_as(
                 "INSERT INTO measurements (formulation_id, kind, value_c, residual_moisture_pct, method, heating_rate_c_min, \
-                 sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at, updated_at) \
-                 VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, 'recorded', 1, $14, $14) RETURNING id",
+                 sample_mass_mg, pan, instrument, analyst, measured_on, replicate, notes, review_state, version, created_at, updated_at, \
+                 trace_id) \
+                 VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, 'recorded', 1, $14, $14, $15) RETURNING id",
             )
             .bind(formulation_id)
             .bind(d.kind.code())
@@ -163,6 +194,7 @@ impl Store {
             .bind(d.replicate)
             .bind(&d.notes)
             .bind(at)
+            .bind(trace_id)
             .fetch_one(&mut **c)
             .await?;
             id

@@ -13,6 +13,7 @@ mod materials;
 mod measurements;
 mod sessions;
 mod signatures;
+mod traces;
 mod users;
 pub(crate) mod write;
 

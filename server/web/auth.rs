@@ -132,8 +132,11 @@ fn unsafe_method(m: &Method) -> bool {
     !matches!(*m, Method::GET | Method::HEAD | Method::OPTIONS)
 }
 
-/// Checks a session request's CSRF token: the form field for form posts, the header for
-/// anything else. Hands back the request with its body intact.
+/// Checks a session request's CSRF token: the `x-csrf-token` header when sent; else the
+/// `csrf_token` field of a urlencoded form, or the `csrf_token` part of a multipart form
+/// (the upload forms put that hidden field first; the token is never taken from the query
+/// string, where it would reach logs and history). Hands back the request with its body
+/// intact.
 async fn check_csrf(req: Request, expected: &str, body_limit: usize) -> Result<Request, AppError> {
     let refused = || {
         AppError::Forbidden(
@@ -147,27 +150,59 @@ async fn check_csrf(req: Request, expected: &str, body_limit: usize) -> Result<R
             Err(refused())
         };
     }
-    let is_form = req
+    let content_type = req
         .headers()
         .get(header::CONTENT_TYPE)
         .and_then(|v| v.to_str().ok())
-        .is_some_and(|v| v.starts_with("application/x-www-form-urlencoded"));
-    if !is_form {
+        .unwrap_or("")
+        .to_string();
+    let media = content_type
+        .split(';')
+        .next()
+        .unwrap_or("")
+        .trim()
+        .to_ascii_lowercase();
+    let multipart = media == "multipart/form-data";
+    if media != "application/x-www-form-urlencoded" && !multipart {
         return Err(refused());
     }
+    let limit = super::body_limit_for(req.uri().path(), body_limit);
     let (parts, body) = req.into_parts();
-    let bytes: Bytes = axum::body::to_bytes(body, body_limit)
+    let bytes: Bytes = axum::body::to_bytes(body, limit)
         .await
         .map_err(|_| AppError::input("body", "the request body is too large"))?;
-    let sent = form_urlencoded::parse(&bytes)
-        .find(|(k, _)| k == CSRF_FIELD)
-        .map(|(_, v)| v.into_owned());
+    let sent = if multipart {
+        multipart_token(&content_type, bytes.clone()).await
+    } else {
+        form_urlencoded::parse(&bytes)
+            .find(|(k, _)| k == CSRF_FIELD)
+            .map(|(_, v)| v.into_owned())
+    };
     match sent {
         Some(sent) if same_secret(&sent, expected) => {
             Ok(Request::from_parts(parts, Body::from(bytes)))
         }
         _ => Err(refused()),
     }
+}
+
+/// The `csrf_token` part of a multipart body, if any (a body that is not valid multipart
+/// has none).
+async fn multipart_token(content_type: &str, bytes: Bytes) -> Option<String> {
+    use axum::extract::FromRequest;
+    let req = Request::builder()
+        .header(header::CONTENT_TYPE, content_type)
+        .body(Body::from(bytes))
+        .ok()?;
+    let mut form = axum::extract::Multipart::from_request(req, &())
+        .await
+        .ok()?;
+    while let Ok(Some(field)) = form.next_field().await {
+        if field.name() == Some(CSRF_FIELD) {
+            return field.text().await.ok();
+        }
+    }
+    None
 }
 
 /// The access layer, run for every matched route.

@@ -40,7 +40,7 @@ pub async fn shape_errors(State(body_limit): State<usize>, req: Request, next: N
     if shaped {
         return response;
     }
-    let error = refusal_for(status, body_limit);
+    let error = refusal_for(status, super::body_limit_for(&path, body_limit));
     let mut out = if api {
         ApiError(error).into_response()
     } else {

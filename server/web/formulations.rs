@@ -386,6 +386,7 @@ struct DetailPage {
     updated: String,
     summaries: Vec<ReplicateSummary>,
     groups: Vec<(MeasurementKind, Vec<Measurement>)>,
+    traces: Vec<crate::domain::traces::TraceMeta>,
 }
 
 #[derive(Debug, Default, Deserialize)]
@@ -437,6 +438,7 @@ async fn detail(
         super::cycles::assess_all(&state, state.store.links_of_formulation(id).await?).await?;
     let resistance = crate::derive::resistance_of(&state.store, &f).await?;
     let summaries = summarise(&measurements);
+    let traces = state.store.traces_of(id).await?;
     let groups = MeasurementKind::ALL
         .iter()
         .map(|k| {
@@ -474,6 +476,7 @@ async fn detail(
         updated,
         summaries,
         groups,
+        traces,
     }))
 }
 

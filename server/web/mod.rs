@@ -18,6 +18,7 @@ mod materials;
 mod measurements;
 pub mod records;
 mod sign_in;
+pub mod traces;
 
 use std::time::Duration;
 
@@ -31,7 +32,6 @@ use axum::Router;
 use extract::Path;
 use tower_http::catch_panic::CatchPanicLayer;
 use tower_http::csrf::CsrfLayer;
-use tower_http::limit::RequestBodyLimitLayer;
 use tower_http::set_header::SetResponseHeaderLayer;
 use tower_http::timeout::TimeoutLayer;
 use tower_http::trace::TraceLayer;
@@ -48,6 +48,7 @@ pub fn router() -> Router<AppState> {
         .merge(materials::router())
         .merge(containers::router())
         .merge(dryers::router())
+        .merge(traces::router())
         .merge(cycles::router())
         .merge(calculators::router())
         .merge(sign_in::router())
@@ -56,13 +57,54 @@ pub fn router() -> Router<AppState> {
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 
+/// Whether `path` takes a DSC trace upload (`/formulations/{id}/traces`, also under
+/// `/api/v1`): those bodies may be up to `MAX_TRACE_BYTES`.
+pub fn is_upload_path(path: &str) -> bool {
+    let bare = path.strip_prefix("/api/v1").unwrap_or(path);
+    let parts: Vec<&str> = bare.split('/').collect();
+    matches!(parts.as_slice(), ["", "formulations", id, "traces"] if !id.is_empty())
+}
+
+/// The body limit of a request to `path`: the configured one, or the larger upload limit
+/// on the trace upload routes.
+pub fn body_limit_for(path: &str, configured: usize) -> usize {
+    if is_upload_path(path) {
+        configured.max(crate::domain::traces::MAX_TRACE_BYTES)
+    } else {
+        configured
+    }
+}
+
+/// The app-wide body limit (in place of `RequestBodyLimitLayer`, which cannot be raised
+/// per route): a declared length over the route's limit answers 413 at once, and a body
+/// that turns out longer fails to read (axum's extractors answer 413 then).
+async fn limit_body(
+    State(configured): State<usize>,
+    req: axum::extract::Request,
+    next: axum::middleware::Next,
+) -> Response {
+    let limit = body_limit_for(req.uri().path(), configured);
+    let declared = req
+        .headers()
+        .get(header::CONTENT_LENGTH)
+        .and_then(|v| v.to_str().ok())
+        .and_then(|v| v.parse::<u64>().ok());
+    if declared.is_some_and(|n| n > limit as u64) {
+        return StatusCode::PAYLOAD_TOO_LARGE.into_response();
+    }
+    let (parts, body) = req.into_parts();
+    let body = axum::body::Body::new(http_body_util::Limited::new(body, limit));
+    next.run(axum::extract::Request::from_parts(parts, body))
+        .await
+}
+
 /// Request limits, the host check, cross-site refusal, one error shape, tracing, panic
 /// containment and security headers for the whole app. The last layer added is the
 /// outermost, so the security headers reach every response, errors included.
 pub fn middleware(app: Router, config: &Config) -> Router {
     let limit = config.body_limit_bytes;
     app.layer(axum::extract::DefaultBodyLimit::max(limit))
-        .layer(RequestBodyLimitLayer::new(limit))
+        .layer(axum::middleware::from_fn_with_state(limit, limit_body))
         .layer(TimeoutLayer::with_status_code(
             StatusCode::REQUEST_TIMEOUT,
             Duration::from_secs(config.request_timeout_s),
