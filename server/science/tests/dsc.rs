@@ -204,6 +204,45 @@ fn suggested_windows_find_the_tg_prime_step_below_the_ice_melt() {
 }
 
 #[test]
+fn one_melting_peak_is_suggested_once_whatever_else_the_trace_holds() {
+    // The Gaussian endotherm of the test above beside a step drawn in the exothermic
+    // direction (no glass transition looks like that): the peak's shoulders and the step
+    // must not come back as further windows over the same peak. Common practice, no
+    // source: one feature, one window.
+    let t = grid(-70.0, 10.0, 0.05);
+    let hf: Vec<f64> = t
+        .iter()
+        .map(|&x| {
+            0.1 + 0.001 * x + 0.15 * (1.0 + ((x + 32.5) / 1.5).tanh())
+                - 8.0 * (-((x + 1.5) / 1.2).powi(2)).exp()
+        })
+        .collect();
+    let mut inp = input(t, hf, Exo::Up);
+    inp.peak_windows_c = None;
+    let out = analyse(&inp).expect("analyses");
+    let melt: Vec<_> = out
+        .peaks
+        .iter()
+        .filter(|p| (p.peak.peak_c + 1.5).abs() < 0.5)
+        .collect();
+    assert_eq!(
+        melt.len(),
+        1,
+        "the melting peak is suggested once: {:?}",
+        out.windows
+    );
+    let w = &out.windows.peak_windows_c;
+    for (i, a) in w.iter().enumerate() {
+        for b in &w[i + 1..] {
+            assert!(
+                a[1] <= b[0] || b[1] <= a[0],
+                "suggested windows do not overlap: {w:?}"
+            );
+        }
+    }
+}
+
+#[test]
 fn too_few_points_are_refused_naming_the_field() {
     let err = calc::run(
         "dsc-analysis",

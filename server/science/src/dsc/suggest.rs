@@ -59,6 +59,10 @@ pub fn suggest_windows(trace: &Trace) -> SuggestedWindows {
         if l == j || r == j {
             continue;
         }
+        // A shoulder or tail of a peak already found is that peak again, not another one.
+        if found.iter().any(|f| l <= f.1 && f.0 <= r) {
+            continue;
+        }
         let base = d[l] + (d[r] - d[l]) * (t[j] - t[l]) / (t[r] - t[l]);
         let height = s * (d[j] - base);
         let largest = found.first().map_or(0.0, |f| f.2);
