@@ -243,6 +243,26 @@ fn one_melting_peak_is_suggested_once_whatever_else_the_trace_holds() {
 }
 
 #[test]
+fn a_lone_glass_transition_step_is_found_without_a_window() {
+    // The tanh fixture (references.md: midpoint Tm, tangent onset/end Tm ∓ w) drawn as a
+    // glass transition is drawn on heating: heat capacity rises, so with exotherms up the
+    // curve steps down. No melt follows; the suggested window must still hold the step.
+    let t = grid(-70.0, -5.0, 0.05);
+    let hf: Vec<f64> = tanh_step(&t, 0.1, 0.001, 0.3, -32.5, 1.5)
+        .into_iter()
+        .map(|v| -v)
+        .collect();
+    let mut inp = input(t, hf, Exo::Up);
+    inp.peak_windows_c = None;
+    inp.glass_transition_window_c = None;
+    let out = analyse(&inp).expect("analyses");
+    let g = out.glass_transition.expect("the step is found");
+    assert_abs_diff_eq!(g.transition.midpoint_c, -32.5, epsilon = TOL_C);
+    assert_abs_diff_eq!(g.transition.onset_c, -34.0, epsilon = TOL_C);
+    assert_abs_diff_eq!(g.transition.end_c, -31.0, epsilon = TOL_C);
+}
+
+#[test]
 fn too_few_points_are_refused_naming_the_field() {
     let err = calc::run(
         "dsc-analysis",
