@@ -263,6 +263,24 @@ fn a_lone_glass_transition_step_is_found_without_a_window() {
 }
 
 #[test]
+fn a_step_drawn_the_exothermic_way_gets_no_glass_transition_window() {
+    // The same fixture with the sign a glass transition never has on heating (exotherms up,
+    // curve stepping up): the suggestion must not invent a Tg′ window elsewhere.
+    let t = grid(-70.0, -5.0, 0.05);
+    let hf = tanh_step(&t, 0.1, 0.001, 0.3, -32.5, 1.5);
+    let mut inp = input(t, hf, Exo::Up);
+    inp.peak_windows_c = None;
+    inp.glass_transition_window_c = None;
+    let out = analyse(&inp).expect("analyses");
+    assert!(out.glass_transition.is_none(), "{:?}", out.windows);
+    assert!(
+        out.windows.glass_transition_c.is_none(),
+        "no window is suggested: {:?}",
+        out.windows
+    );
+}
+
+#[test]
 fn too_few_points_are_refused_naming_the_field() {
     let err = calc::run(
         "dsc-analysis",
