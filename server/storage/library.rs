@@ -75,13 +75,7 @@ fn shipped_dryers() -> Result<Vec<LibraryDryer>, AppError> {
 
 /// Installs the typical dryer once (on the first migration that knows dryers).
 async fn install_dryers_if_missing(store: &Store) -> Result<(), AppError> {
-    let done: Option<(String,)> = on_pool!(store, pool => {
-        sqlx::query_as("SELECT value FROM app_meta WHERE key = $1")
-            .bind(DRYERS_MARKER)
-            .fetch_optional(pool)
-            .await?
-    });
-    if done.is_some() {
+    if installed(store, DRYERS_MARKER).await? {
         return Ok(());
     }
     let installer = crate::auth::Actor::system();
@@ -116,9 +110,24 @@ async fn install_dryers_if_missing(store: &Store) -> Result<(), AppError> {
             )
             .await?;
     }
+    mark_installed(store, DRYERS_MARKER).await
+}
+
+/// Whether the shipped records behind `marker` were installed already.
+async fn installed(store: &Store, marker: &str) -> Result<bool, AppError> {
+    let done: Option<(String,)> = on_pool!(store, pool => {
+        sqlx::query_as("SELECT value FROM app_meta WHERE key = $1")
+            .bind(marker)
+            .fetch_optional(pool)
+            .await?
+    });
+    Ok(done.is_some())
+}
+
+async fn mark_installed(store: &Store, marker: &str) -> Result<(), AppError> {
     on_pool!(store, pool => {
         sqlx::query("INSERT INTO app_meta (key, value) VALUES ($1, $2)")
-            .bind(DRYERS_MARKER)
+            .bind(marker)
             .bind("1")
             .execute(pool)
             .await?;
@@ -134,13 +143,7 @@ pub fn shipped_materials() -> Result<Vec<LibraryMaterial>, AppError> {
 
 pub(super) async fn install_if_missing(store: &Store) -> Result<(), AppError> {
     let installer = crate::auth::Actor::system();
-    let done: Option<(String,)> = on_pool!(store, pool => {
-        sqlx::query_as("SELECT value FROM app_meta WHERE key = $1")
-            .bind(MARKER)
-            .fetch_optional(pool)
-            .await?
-    });
-    if done.is_some() {
+    if installed(store, MARKER).await? {
         return install_dryers_if_missing(store).await;
     }
     let existing: Vec<String> = store
@@ -204,13 +207,7 @@ pub(super) async fn install_if_missing(store: &Store) -> Result<(), AppError> {
             )
             .await?;
     }
-    on_pool!(store, pool => {
-        sqlx::query("INSERT INTO app_meta (key, value) VALUES ($1, $2)")
-            .bind(MARKER)
-            .bind("1")
-            .execute(pool)
-            .await?;
-    });
+    mark_installed(store, MARKER).await?;
     install_dryers_if_missing(store).await
 }
 
