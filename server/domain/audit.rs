@@ -45,6 +45,7 @@ labelled_enum!(
         Dryer => ("dryer", "Dryer"),
         Cycle => ("cycle", "Cycle"),
         Trace => ("trace", "DSC trace"),
+        Run => ("run", "Run"),
         User => ("user", "User"),
         Settings => ("settings", "Team settings"),
     }
@@ -71,6 +72,7 @@ impl Entity {
             Entity::Dryer => "dryers",
             Entity::Cycle => "cycles",
             Entity::Trace => "dsc_traces",
+            Entity::Run => "runs",
             Entity::User => "users",
             Entity::Settings => "team_settings",
         }
@@ -101,13 +103,22 @@ impl Entity {
                 order_by: "kind",
                 skip: &["id"],
             }],
-            Entity::Dryer => &[ChildRows {
-                name: "capability",
-                table: "dryer_capability_points",
-                parent_column: "dryer_id",
-                order_by: "position",
-                skip: &["id"],
-            }],
+            Entity::Dryer => &[
+                ChildRows {
+                    name: "capability",
+                    table: "dryer_capability_points",
+                    parent_column: "dryer_id",
+                    order_by: "position",
+                    skip: &["id"],
+                },
+                ChildRows {
+                    name: "column_map",
+                    table: "dryer_column_maps",
+                    parent_column: "dryer_id",
+                    order_by: "position",
+                    skip: &[],
+                },
+            ],
             Entity::Cycle => &[ChildRows {
                 name: "links",
                 table: "cycle_links",
@@ -115,6 +126,29 @@ impl Entity {
                 order_by: "id",
                 skip: &[],
             }],
+            Entity::Run => &[
+                ChildRows {
+                    name: "formulations",
+                    table: "run_formulations",
+                    parent_column: "run_id",
+                    order_by: "formulation_id",
+                    skip: &[],
+                },
+                ChildRows {
+                    name: "moisture",
+                    table: "run_moisture_samples",
+                    parent_column: "run_id",
+                    order_by: "position",
+                    skip: &["id"],
+                },
+                ChildRows {
+                    name: "weights",
+                    table: "run_vial_weights",
+                    parent_column: "run_id",
+                    order_by: "position",
+                    skip: &["id"],
+                },
+            ],
             _ => &[],
         }
     }
@@ -130,6 +164,7 @@ impl Entity {
             Entity::Dryer => format!("/dryers/{id}"),
             Entity::Cycle => format!("/cycles/{id}"),
             Entity::Trace => format!("/traces/{id}"),
+            Entity::Run => format!("/runs/{id}"),
             Entity::User => "/admin/users".to_string(),
             Entity::Settings => "/admin/settings".to_string(),
         }
@@ -141,6 +176,9 @@ impl Entity {
             Entity::Measurement => Some(
                 "UPDATE measurements SET review_state = 'recorded' WHERE id = $1 AND review_state <> 'recorded'",
             ),
+            Entity::Run => Some(
+                "UPDATE runs SET review_state = 'recorded' WHERE id = $1 AND review_state <> 'recorded'",
+            ),
             Entity::Formulation => Some(
                 "UPDATE formulations SET status = 'characterized' WHERE id = $1 AND status = 'approved'",
             ),
@@ -150,7 +188,10 @@ impl Entity {
 
     /// Records that a second person reviews or approves.
     pub fn signable(self) -> bool {
-        matches!(self, Entity::Formulation | Entity::Measurement)
+        matches!(
+            self,
+            Entity::Formulation | Entity::Measurement | Entity::Run
+        )
     }
 }
 

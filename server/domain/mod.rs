@@ -8,6 +8,7 @@ mod cycles;
 mod dryers;
 pub mod fields;
 pub mod records;
+pub mod runs;
 pub mod traces;
 
 pub use audit::*;

@@ -3,6 +3,7 @@
 
 pub mod audit;
 pub mod backup;
+mod calibrations;
 mod containers;
 mod cycles;
 pub mod demo;
@@ -13,6 +14,7 @@ mod materials;
 mod measurements;
 mod sessions;
 mod signatures;
+mod runs;
 mod traces;
 mod users;
 pub(crate) mod write;
@@ -26,6 +28,8 @@ use sqlx::sqlite::{SqliteConnectOptions, SqliteJournalMode, SqlitePool, SqlitePo
 use crate::error::AppError;
 
 pub use audit::{AuditCheck, AuditEvent, AuditFilter};
+pub use calibrations::{Adoption, Calibration, ModelCheck};
+pub use runs::RunFilter;
 pub use formulations::{trim_number, FormulationFilter, FormulationSort, FormulationSummary, Page};
 pub use sessions::{wait_after, SessionInfo, SessionLimits};
 pub use signatures::{SignRequest, Signature, TeamSettings};

@@ -104,7 +104,7 @@ impl Store {
         if !req.entity.signable() {
             return Err(AppError::input(
                 "entity",
-                "only formulations and measurements are signed",
+                "only formulations, measurements and runs are signed",
             ));
         }
         if req.meaning == SignatureMeaning::Approved && req.entity != Entity::Formulation {
@@ -148,6 +148,10 @@ impl Store {
             (Entity::Measurement, _) => {
                 Some("UPDATE measurements SET review_state = 'reviewed' WHERE id = $1")
             }
+            (Entity::Run, SignatureMeaning::Rejected) => {
+                Some("UPDATE runs SET review_state = 'rejected' WHERE id = $1")
+            }
+            (Entity::Run, _) => Some("UPDATE runs SET review_state = 'reviewed' WHERE id = $1"),
             (Entity::Formulation, SignatureMeaning::Approved) => {
                 Some("UPDATE formulations SET status = 'approved' WHERE id = $1")
             }

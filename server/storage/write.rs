@@ -288,9 +288,10 @@ pub fn signed_content_hash(content: &Map<String, Value>) -> String {
     hex::encode(Sha256::digest(Value::Object(bound).to_string().as_bytes()))
 }
 
-/// Columns never copied into the audit trail: bookkeeping, secrets, and a DSC trace's
-/// original bytes and parsed arrays (the trail keeps the bytes' SHA-256, `content_sha256`,
-/// which identifies them; the arrays are read again from those bytes).
+/// Columns never copied into the audit trail: bookkeeping, secrets, and the original bytes
+/// and parsed arrays of a DSC trace or a run's recorded data (the trail keeps the bytes'
+/// SHA-256, `content_sha256`, which identifies them; the arrays are read again from those
+/// bytes).
 const SKIPPED: &[&str] = &[
     "created_at",
     "updated_at",
@@ -298,6 +299,7 @@ const SKIPPED: &[&str] = &[
     "original_bytes",
     "temperature_c_json",
     "heat_flow_json",
+    "series_json",
 ];
 
 pub(crate) async fn snapshot(

@@ -19,6 +19,7 @@ mod measurements;
 pub mod records;
 mod sign_in;
 pub mod traces;
+pub mod upload;
 
 use std::time::Duration;
 

@@ -3,7 +3,7 @@
 //! original file byte for byte.
 
 use askama::Template;
-use axum::extract::{DefaultBodyLimit, FromRequest, Request, State};
+use axum::extract::{DefaultBodyLimit, Request, State};
 use axum::http::{header, HeaderValue, StatusCode};
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
@@ -81,51 +81,26 @@ async fn new_form(
     .await
 }
 
-/// A multipart body's fields: the file's bytes and name, and the typed fields.
+/// A trace upload's fields: the file's bytes and name, and the typed fields.
 pub async fn read_multipart(req: Request) -> Result<(TraceForm, Vec<u8>), AppError> {
-    let mut mp = axum::extract::Multipart::from_request(req, &())
-        .await
-        .map_err(|_| {
-            AppError::refused(
-                StatusCode::UNSUPPORTED_MEDIA_TYPE,
-                Some("body"),
-                "an upload must be sent as multipart/form-data",
-            )
-        })?;
-    let unreadable = |e: axum::extract::multipart::MultipartError| {
-        if e.status() == StatusCode::PAYLOAD_TOO_LARGE {
-            super::extract::too_large()
+    let up = super::upload::read_upload(req).await?;
+    let typed_name = up.text("file_name");
+    let form = TraceForm {
+        file_name: if typed_name.is_empty() {
+            up.file_name.clone()
         } else {
-            AppError::refused(
-                StatusCode::BAD_REQUEST,
-                Some("body"),
-                "the upload could not be read",
-            )
-        }
+            typed_name
+        },
+        sample_mass_mg: up.text("sample_mass_mg"),
+        heating_rate_c_min: up.text("heating_rate_c_min"),
+        exo: up.text("exo"),
+        notes: up.text("notes"),
+        temperature_column: up.text("temperature_column"),
+        heat_flow_column: up.text("heat_flow_column"),
+        time_column: up.text("time_column"),
+        ..Default::default()
     };
-    let mut form = TraceForm::default();
-    let mut bytes = Vec::new();
-    while let Some(field) = mp.next_field().await.map_err(unreadable)? {
-        let name = field.name().unwrap_or("").to_string();
-        if name == "file" {
-            form.file_name = field.file_name().unwrap_or("").to_string();
-            bytes = field.bytes().await.map_err(unreadable)?.to_vec();
-            continue;
-        }
-        let text = |t: Result<String, _>| t.map_err(unreadable);
-        match name.as_str() {
-            "file_name" => form.file_name = text(field.text().await)?,
-            "sample_mass_mg" => form.sample_mass_mg = text(field.text().await)?,
-            "heating_rate_c_min" => form.heating_rate_c_min = text(field.text().await)?,
-            "exo" => form.exo = text(field.text().await)?,
-            "notes" => form.notes = text(field.text().await)?,
-            "temperature_column" => form.temperature_column = text(field.text().await)?,
-            "heat_flow_column" => form.heat_flow_column = text(field.text().await)?,
-            "time_column" => form.time_column = text(field.text().await)?,
-            _ => {}
-        }
-    }
-    Ok((form, bytes))
+    Ok((form, up.bytes))
 }
 
 async fn upload(
