@@ -493,32 +493,7 @@ async fn original(
 /// The original bytes with their file name, for pages and the API.
 pub async fn original_response(state: &AppState, id: i64) -> Result<Response, AppError> {
     let (name, bytes) = state.store.trace_original(id).await?;
-    let mut r = bytes.into_response();
-    let h = r.headers_mut();
-    h.insert(
-        header::CONTENT_TYPE,
-        HeaderValue::from_static("application/octet-stream"),
-    );
-    // An ASCII fallback name and the exact one in RFC 5987 form.
-    let ascii: String = name
-        .chars()
-        .map(|c| {
-            if c.is_ascii_graphic() && c != '"' && c != '\\' || c == ' ' {
-                c
-            } else {
-                '_'
-            }
-        })
-        .collect();
-    let exact: String = form_urlencoded::byte_serialize(name.as_bytes())
-        .collect::<String>()
-        .replace('+', "%20");
-    if let Ok(v) = HeaderValue::from_str(&format!(
-        "attachment; filename=\"{ascii}\"; filename*=UTF-8''{exact}"
-    )) {
-        h.insert(header::CONTENT_DISPOSITION, v);
-    }
-    Ok(r)
+    Ok(super::upload::attachment(&name, bytes))
 }
 
 async fn save_measurements(

@@ -2,7 +2,8 @@
 //! API route that takes a file (DSC traces, run data).
 
 use axum::extract::{FromRequest, Request};
-use axum::http::StatusCode;
+use axum::http::{header, HeaderValue, StatusCode};
+use axum::response::{IntoResponse, Response};
 
 use crate::AppError;
 
@@ -80,3 +81,34 @@ pub async fn read_upload(req: Request) -> Result<Upload, AppError> {
     }
     Ok(upload)
 }
+
+/// A stored file as a download, byte for byte, under its own name.
+pub fn attachment(name: &str, bytes: Vec<u8>) -> Response {
+    let mut r = bytes.into_response();
+    let h = r.headers_mut();
+    h.insert(
+        header::CONTENT_TYPE,
+        HeaderValue::from_static("application/octet-stream"),
+    );
+    // An ASCII fallback name and the exact one in RFC 5987 form.
+    let ascii: String = name
+        .chars()
+        .map(|c| {
+            if c.is_ascii_graphic() && c != '"' && c != '\\' || c == ' ' {
+                c
+            } else {
+                '_'
+            }
+        })
+        .collect();
+    let exact: String = form_urlencoded::byte_serialize(name.as_bytes())
+        .collect::<String>()
+        .replace('+', "%20");
+    if let Ok(v) = HeaderValue::from_str(&format!(
+        "attachment; filename=\"{ascii}\"; filename*=UTF-8''{exact}"
+    )) {
+        h.insert(header::CONTENT_DISPOSITION, v);
+    }
+    r
+}
+
