@@ -1,8 +1,11 @@
 //! What a column holds, read from its header: a unit (in brackets, after a slash or a
 //! space, or in a units row) and a role from its name.
 
+use serde::Serialize;
+
 /// Units recognised in headers.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
 pub enum Unit {
     Celsius,
     Kelvin,
@@ -18,6 +21,11 @@ pub enum Unit {
     Hour,
     MilliGram,
     Percent,
+    MilliTorr,
+    Torr,
+    Pascal,
+    MilliBar,
+    MicroBar,
 }
 
 impl Unit {
@@ -36,6 +44,63 @@ impl Unit {
     }
     pub fn is_time(self) -> bool {
         matches!(self, Unit::Second | Unit::Minute | Unit::Hour)
+    }
+    pub fn is_pressure(self) -> bool {
+        matches!(
+            self,
+            Unit::MilliTorr | Unit::Torr | Unit::Pascal | Unit::MilliBar | Unit::MicroBar
+        )
+    }
+    /// A temperature in this unit to °C (`None` when it is not a temperature unit).
+    pub fn to_celsius(self, v: f64) -> Option<f64> {
+        match self {
+            Unit::Celsius => Some(v),
+            Unit::Kelvin => Some(v - 273.15),
+            _ => None,
+        }
+    }
+    /// Factor from this unit to hours (`None` when it is not a time unit).
+    pub fn hours_per_unit(self) -> Option<f64> {
+        match self {
+            Unit::Second => Some(1.0 / 3600.0),
+            Unit::Minute => Some(1.0 / 60.0),
+            Unit::Hour => Some(1.0),
+            _ => None,
+        }
+    }
+    /// Factor from this unit to mTorr (`None` when it is not a pressure unit). 1 Torr =
+    /// 101325/760 Pa, so 1 Pa = 7.50062 mTorr and 1 mbar = 100 Pa (SI definitions).
+    pub fn millitorr_per_unit(self) -> Option<f64> {
+        match self {
+            Unit::MilliTorr => Some(1.0),
+            Unit::Torr => Some(1000.0),
+            Unit::Pascal => Some(7.50062),
+            Unit::MilliBar => Some(750.062),
+            Unit::MicroBar => Some(0.750062),
+            _ => None,
+        }
+    }
+    /// How the unit is written in messages.
+    pub fn label(self) -> &'static str {
+        match self {
+            Unit::Celsius => "°C",
+            Unit::Kelvin => "K",
+            Unit::MilliWatt => "mW",
+            Unit::Watt => "W",
+            Unit::MicroWatt => "µW",
+            Unit::WattPerGram => "W/g",
+            Unit::MilliWattPerGram => "mW/g",
+            Unit::Second => "s",
+            Unit::Minute => "min",
+            Unit::Hour => "h",
+            Unit::MilliGram => "mg",
+            Unit::Percent => "%",
+            Unit::MilliTorr => "mTorr",
+            Unit::Torr => "Torr",
+            Unit::Pascal => "Pa",
+            Unit::MilliBar => "mbar",
+            Unit::MicroBar => "µbar",
+        }
     }
 }
 
@@ -59,9 +124,14 @@ pub fn parse_unit(text: &str) -> Option<Unit> {
         "mw/g" => Unit::MilliWattPerGram,
         "s" | "sec" | "seconds" => Unit::Second,
         "min" | "minutes" => Unit::Minute,
-        "h" | "hours" => Unit::Hour,
+        "h" | "hr" | "hrs" | "hours" => Unit::Hour,
         "mg" => Unit::MilliGram,
         "%" => Unit::Percent,
+        "mtorr" | "millitorr" => Unit::MilliTorr,
+        "torr" => Unit::Torr,
+        "pa" => Unit::Pascal,
+        "mbar" => Unit::MilliBar,
+        "ubar" => Unit::MicroBar,
         _ => return None,
     })
 }
@@ -178,5 +248,21 @@ mod tests {
             Role::NonReversingHeatFlow
         );
         assert_eq!(describe("Heat flow (µW)", None).unit, Some(Unit::MicroWatt));
+    }
+
+    #[test]
+    fn pressure_units_are_read_and_converted_to_millitorr() {
+        assert_eq!(describe("Pirani [mTorr]", None).unit, Some(Unit::MilliTorr));
+        assert_eq!(describe("Chamber (µbar)", None).unit, Some(Unit::MicroBar));
+        assert_eq!(describe("CM", Some("Pa")).unit, Some(Unit::Pascal));
+        assert_eq!(describe("Vacuum/mbar", None).unit, Some(Unit::MilliBar));
+        assert_eq!(describe("P Torr", None).unit, Some(Unit::Torr));
+        // 1 Torr = 101325/760 Pa = 133.322 Pa (definition of the torr); the factors carry
+        // six significant figures.
+        let pa = Unit::Pascal.millitorr_per_unit().unwrap() * 101_325.0 / 760.0;
+        assert!((pa - 1000.0).abs() < 1e-5 * 1000.0, "{pa}");
+        let mbar = Unit::MilliBar.millitorr_per_unit().unwrap()
+            / Unit::Pascal.millitorr_per_unit().unwrap();
+        assert!((mbar - 100.0).abs() < 1e-9, "{mbar}");
     }
 }

@@ -19,17 +19,23 @@ pub mod columns;
 pub mod decode;
 pub mod dsc;
 pub mod number;
+pub mod run;
 pub mod segments;
 pub mod sniff;
 pub mod table;
+pub mod timestamp;
 
 use std::fmt;
 
 pub use columns::{ColumnInfo, Role, Unit};
 pub use dsc::{read_dsc, Ambiguity, ColumnChoice, DscColumns, DscImport, HeatFlowUnit};
+pub use run::{
+    read_run, suggest_role, ColumnMapping, MappingRequest, ProbeSite, RunColumn, RunImport,
+    RunProbe, RunRead, RunRole,
+};
 pub use segments::{split_segments, Segment, SegmentKind};
-pub use sniff::{DecimalMark, Delimiter};
-pub use table::{read_table, Table};
+pub use sniff::{Cells, DecimalMark, Delimiter};
+pub use table::{read_table, read_table_with, CellKind, Table};
 
 /// What cannot be read and why. `field` names the part (`file`, `encoding`, `columns`,
 /// `line 12`, `temperature_column`, …); `message` says what to do.

@@ -1,9 +1,11 @@
 //! Finding the layout of a delimited export from its first lines: the delimiter and
-//! decimal mark that make the longest block of numeric rows, the header (and units) row
+//! decimal mark that make the longest block of data rows (numbers, or for a run export
+//! readings: numbers, times and gaps), the header (and units) row
 //! just above that block, and the preamble above the header.
 
 use crate::decode::Line;
 use crate::number::parse_number;
+use crate::timestamp::{parse_time_cell, TimeCell};
 use crate::ImportError;
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -19,6 +21,66 @@ pub enum Delimiter {
 pub enum DecimalMark {
     Point,
     Comma,
+}
+
+/// What a data cell may hold.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Cells {
+    /// Every cell of a data row is a number (a DSC trace).
+    Numbers,
+    /// Numbers, date-times or elapsed times; an empty or unreadable cell is a missing
+    /// reading (a run export, where a sensor may drop out).
+    Readings,
+}
+
+/// One cell of a data row read under [`Cells::Readings`].
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Reading {
+    Number(f64),
+    Time(TimeCell),
+    Empty,
+    /// Text that is neither a number nor a time ("---", "ERR").
+    Unreadable,
+}
+
+impl Reading {
+    pub fn is_value(self) -> bool {
+        matches!(self, Reading::Number(_) | Reading::Time(_))
+    }
+}
+
+/// Every field of a line as a reading.
+pub fn reading_row(line: &str, d: Delimiter, m: DecimalMark) -> Vec<Reading> {
+    split(line, d)
+        .iter()
+        .map(|f| {
+            if f.is_empty() {
+                Reading::Empty
+            } else if let Some(x) = parse_number(f, m) {
+                Reading::Number(x)
+            } else if let Some(t) = parse_time_cell(f) {
+                Reading::Time(t)
+            } else {
+                Reading::Unreadable
+            }
+        })
+        .collect()
+}
+
+/// The field count of a line that looks like data under `cells`, and how many of its
+/// fields are readings: for readings, at least one value and no more unreadable cells than
+/// values (so headers and notes are not data). Numbers count no values: the longest block
+/// alone decides their layout.
+fn data_fields(line: &str, d: Delimiter, m: DecimalMark, cells: Cells) -> Option<(usize, usize)> {
+    match cells {
+        Cells::Numbers => numeric_row(line, d, m).map(|v| (v.len(), 0)),
+        Cells::Readings => {
+            let row = reading_row(line, d, m);
+            let values = row.iter().filter(|r| r.is_value()).count();
+            let unreadable = row.iter().filter(|r| **r == Reading::Unreadable).count();
+            (values > 0 && unreadable <= values).then_some((row.len(), values))
+        }
+    }
 }
 
 /// Tried in this order; the first of equally good layouts wins.
@@ -106,19 +168,31 @@ pub fn numeric_row(line: &str, d: Delimiter, m: DecimalMark) -> Option<Vec<f64>>
     fields.iter().map(|f| parse_number(f, m)).collect()
 }
 
-/// Finds the layout. `eof` says whether the lines are the whole file.
+/// Finds the layout of a table of numbers.
 pub fn sniff(lines: &[Line], max_columns: usize) -> Result<Layout, ImportError> {
-    let mut best: Option<(usize, Layout)> = None;
+    sniff_with(lines, max_columns, Cells::Numbers)
+}
+
+/// Finds the layout, with data rows as `cells` says.
+pub fn sniff_with(lines: &[Line], max_columns: usize, cells: Cells) -> Result<Layout, ImportError> {
+    let mut best: Option<((usize, usize), Layout)> = None;
     for (d, m) in LAYOUTS {
-        let Some((start, len, cols)) = longest_block(lines, d, m) else {
+        let Some(Block {
+            start,
+            rows: len,
+            columns: cols,
+            values,
+        }) = longest_block(lines, d, m, cells)
+        else {
             continue;
         };
         if cols < 2 || cols > max_columns {
             continue;
         }
-        if best.as_ref().is_none_or(|(l, _)| len > *l) {
+        // Longer blocks win; among equally long ones, the one that reads more values.
+        if best.as_ref().is_none_or(|(l, _)| (len, values) > *l) {
             best = Some((
-                len,
+                (len, values),
                 Layout {
                     delimiter: d,
                     decimal: m,
@@ -130,10 +204,17 @@ pub fn sniff(lines: &[Line], max_columns: usize) -> Result<Layout, ImportError> 
             ));
         }
     }
-    let Some((len, mut layout)) = best else {
+    let Some(((len, _), mut layout)) = best else {
+        if cells == Cells::Readings {
+            return Err(ImportError::new(
+                "file",
+                "has no rows of readings (numbers or times in two or more columns separated \
+                 by commas, tabs, semicolons or spaces) in its first lines",
+            ));
+        }
         let single = LAYOUTS
             .iter()
-            .any(|&(d, m)| longest_block(lines, d, m).is_some_and(|b| b.2 == 1));
+            .any(|&(d, m)| longest_block(lines, d, m, cells).is_some_and(|b| b.columns == 1));
         let msg = if single {
             "has only one numeric column; a trace needs at least two (temperature and \
              heat flow)"
@@ -145,32 +226,63 @@ pub fn sniff(lines: &[Line], max_columns: usize) -> Result<Layout, ImportError> 
     };
     if len < 2 && lines.len() > layout.data_start + 1 {
         // One numeric row followed by more text: not a table.
-        return Err(ImportError::new(
-            "rows",
-            "only a single row of numbers was found; a trace needs at least two points",
-        ));
+        return Err(too_few_rows(cells));
     }
     find_header(lines, &mut layout);
     Ok(layout)
 }
 
-/// (start, rows, columns) of the longest run of numeric rows with one field count.
-fn longest_block(lines: &[Line], d: Delimiter, m: DecimalMark) -> Option<(usize, usize, usize)> {
-    let mut best: Option<(usize, usize, usize)> = None;
-    let mut cur: Option<(usize, usize, usize)> = None;
+/// The refusal of a table with fewer than two data rows.
+pub fn too_few_rows(cells: Cells) -> ImportError {
+    match cells {
+        Cells::Numbers => ImportError::new(
+            "rows",
+            "only a single row of numbers was found; a trace needs at least two points",
+        ),
+        Cells::Readings => ImportError::new(
+            "file",
+            "has fewer than two rows of readings; a run needs at least two",
+        ),
+    }
+}
+
+/// A run of data rows with one field count.
+#[derive(Debug, Clone, Copy)]
+struct Block {
+    start: usize,
+    rows: usize,
+    columns: usize,
+    /// Readings in the block (0 for numbers).
+    values: usize,
+}
+
+/// The longest run of data rows with one field count.
+fn longest_block(lines: &[Line], d: Delimiter, m: DecimalMark, cells: Cells) -> Option<Block> {
+    let mut best: Option<Block> = None;
+    let mut cur: Option<Block> = None;
     for (i, (_, text)) in lines.iter().enumerate() {
         if text.trim().is_empty() {
             continue;
         }
-        match numeric_row(text, d, m) {
-            Some(v) => match cur {
-                Some((s, n, c)) if c == v.len() => cur = Some((s, n + 1, c)),
-                _ => cur = Some((i, 1, v.len())),
+        match data_fields(text, d, m, cells) {
+            Some((len, values)) => match cur.as_mut() {
+                Some(b) if b.columns == len => {
+                    b.rows += 1;
+                    b.values += values;
+                }
+                _ => {
+                    cur = Some(Block {
+                        start: i,
+                        rows: 1,
+                        columns: len,
+                        values,
+                    })
+                }
             },
             None => cur = None,
         }
         if let Some(c) = cur {
-            if best.is_none_or(|b| c.1 > b.1) {
+            if best.is_none_or(|b| c.rows > b.rows) {
                 best = Some(c);
             }
         }
