@@ -312,3 +312,38 @@ fn roles_are_stored_as_plain_strings() {
         RunRole::Probe(ProbeSite::Back)
     );
 }
+
+#[test]
+fn rows_of_placeholders_while_sensors_warm_up_keep_the_header() {
+    let text = "Run: invented\n\
+        Time (h),Shelf (°C),Product front (°C),Product back (°C),Pirani (mTorr),Condenser (°C)\n\
+        0,20,---,---,---,---\n\
+        0.5,5,---,---,---,ERR\n\
+        1,-40,-38,-39,760000,-60\n\
+        1.5,-40,-42,-41,90,-70\n";
+    let run = ready(text, None);
+    assert_eq!(run.probes.len(), 2);
+    assert!(close(
+        &run.probes[1].temp_c,
+        &[f64::NAN, f64::NAN, -39.0, -41.0]
+    ));
+    assert!(close(
+        run.condenser_c.as_deref().unwrap(),
+        &[f64::NAN, f64::NAN, -60.0, -70.0]
+    ));
+    assert_eq!(run.preamble, vec![("Run".into(), "invented".into())]);
+}
+
+#[test]
+fn a_units_row_may_give_the_time_format() {
+    let text = "Elapsed;Shelf;TC edge;Manometer\nhh:mm:ss;°C;°C;mbar\n\
+        0:00:00;-40;-45;0,1\n0:06:00;-39,5;-44,5;0,1\n";
+    let run = ready(text, None);
+    assert!(close(&run.time_h, &[0.0, 0.1]));
+    assert!(close(&run.shelf_c, &[-40.0, -39.5]));
+    assert_eq!(run.mapping[0].header, "Elapsed");
+    assert!(close(
+        run.manometer_mtorr.as_deref().unwrap(),
+        &[75.0062, 75.0062]
+    ));
+}
