@@ -1,5 +1,5 @@
-//! Reading delimited text exports: DSC traces now, freeze-dryer run data and other CSV
-//! later. Generic text only (no instrument's own file format).
+//! Reading delimited text exports: DSC traces and freeze-dryer run data. Generic text
+//! only (no instrument's own file format).
 //!
 //! The pipeline, streaming with bounded memory:
 //! 1. [`decode`]: bytes to lines — UTF-8 with or without a BOM, UTF-16 LE/BE with a BOM,
@@ -7,10 +7,14 @@
 //! 2. [`sniff`]: from the first lines, the delimiter (comma, tab, semicolon or
 //!    whitespace), the decimal mark (point or comma), where the numbers start, the header
 //!    row (and a units row under it) and the `key: value` preamble above it.
-//! 3. [`table`]: every data row into numeric columns ([`Table`]), up to a row limit.
+//! 3. [`table`]: every data row into numeric columns ([`Table`]), up to a row limit. A
+//!    trace's cells are all numbers; a run export's may also be date-times or elapsed
+//!    times ([`timestamp`], read as hours since the first row) or missing (NaN).
 //! 4. [`columns`]: units and roles from the header (temperature °C or K; heat flow mW,
-//!    W/g, mW/mg; time s or min); [`dsc`] picks a trace's columns, reporting ambiguity.
-//! 5. [`segments`]: heating, cooling and isothermal segments.
+//!    W/g, mW/mg; time s, min or h; pressure mTorr, Torr, Pa, mbar, µbar); [`dsc`] picks a
+//!    trace's columns, reporting ambiguity; [`run`] places a run's columns by a stored
+//!    mapping or by header words, or asks for a mapping.
+//! 5. [`segments`]: heating, cooling and isothermal segments of a trace.
 //!
 //! Every refusal is an [`ImportError`] naming what is wrong; nothing panics on input.
 #![deny(clippy::float_cmp)]

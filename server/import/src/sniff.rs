@@ -68,17 +68,17 @@ pub fn reading_row(line: &str, d: Delimiter, m: DecimalMark) -> Vec<Reading> {
 }
 
 /// The field count of a line that looks like data under `cells`, and how many of its
-/// fields are readings: for readings, at least one value and no more unreadable cells than
-/// values (so headers and notes are not data). Numbers count no values: the longest block
-/// alone decides their layout.
+/// fields are readings. A row of readings needs one value (a time or a number): sensors
+/// warming up may fill most of a row with "---", while headers and units rows hold none.
+/// Which delimiter and decimal mark read the most values then decides between layouts;
+/// numbers count no values, as the longest block alone decides their layout.
 fn data_fields(line: &str, d: Delimiter, m: DecimalMark, cells: Cells) -> Option<(usize, usize)> {
     match cells {
         Cells::Numbers => numeric_row(line, d, m).map(|v| (v.len(), 0)),
         Cells::Readings => {
             let row = reading_row(line, d, m);
             let values = row.iter().filter(|r| r.is_value()).count();
-            let unreadable = row.iter().filter(|r| **r == Reading::Unreadable).count();
-            (values > 0 && unreadable <= values).then_some((row.len(), values))
+            (values > 0).then_some((row.len(), values))
         }
     }
 }
@@ -299,9 +299,12 @@ fn find_header(lines: &[Line], layout: &mut Layout) {
     let Some(row) = cells(h) else {
         return;
     };
-    let all_units = row
-        .iter()
-        .all(|c| c.is_empty() || crate::columns::parse_unit(c).is_some());
+    // A units row may also say how times are written ("hh:mm:ss").
+    let all_units = row.iter().all(|c| {
+        c.is_empty()
+            || crate::columns::parse_unit(c).is_some()
+            || crate::timestamp::is_format_hint(c)
+    });
     if all_units && row.iter().any(|c| !c.is_empty()) {
         if let Some(n) = above(h).filter(|&n| cells(n).is_some()) {
             layout.header = Some(n);

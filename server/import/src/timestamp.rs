@@ -34,6 +34,12 @@ pub fn parse_time_cell(field: &str) -> Option<TimeCell> {
     clock_seconds(s, 6).map(TimeCell::Elapsed)
 }
 
+/// A units-row cell that says how times are written ("hh:mm:ss", "[dd.mm.yyyy hh:mm]").
+pub fn is_format_hint(cell: &str) -> bool {
+    let c = cell.trim().to_lowercase();
+    c.contains(':') && c.chars().all(|ch| "ymdhs:.-/ t[]()".contains(ch))
+}
+
 /// `H:MM` or `H:MM:SS` (seconds may carry a fraction after `.` or `,`), with at most
 /// `max_hour_digits` hour digits.
 fn clock_seconds(s: &str, max_hour_digits: usize) -> Option<f64> {
@@ -94,7 +100,7 @@ fn digits(s: &str) -> Option<u32> {
 
 fn days_in_month(y: u32, m: u32) -> u32 {
     match m {
-        2 if (y % 4 == 0 && y % 100 != 0) || y % 400 == 0 => 29,
+        2 if (y.is_multiple_of(4) && !y.is_multiple_of(100)) || y.is_multiple_of(400) => 29,
         2 => 28,
         4 | 6 | 9 | 11 => 30,
         _ => 31,
@@ -145,6 +151,14 @@ mod tests {
         assert_eq!(parse_time_cell("1:30:15"), Some(TimeCell::Elapsed(5415.0)));
         assert_eq!(parse_time_cell("36:05"), Some(TimeCell::Elapsed(129_900.0)));
         assert_eq!(secs("0:00:01.5"), Some(1.5));
+    }
+
+    #[test]
+    fn format_hints_are_told_from_names() {
+        assert!(is_format_hint("hh:mm:ss"));
+        assert!(is_format_hint("[DD.MM.YYYY hh:mm]"));
+        assert!(!is_format_hint("Time"));
+        assert!(!is_format_hint("hh"));
     }
 
     #[test]

@@ -8,6 +8,8 @@ use glasspoint_import::{
 
 #[path = "import/props.rs"]
 mod props;
+#[path = "import/run.rs"]
+mod run;
 
 /// A cool–hold–heat run: 20 → −60 °C at 10 °C/min, 5 min hold, −60 → 10 °C at 10 °C/min,
 /// one row per 0.005 min. On heating: a Tg' step (tanh fixture, Tm −32 °C, w 1 °C) and an

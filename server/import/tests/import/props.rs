@@ -1,6 +1,9 @@
-//! Property tests: whatever the bytes, the reader answers a table or an error.
+//! Property tests: whatever the bytes, the readers answer a table, a run or a mapping
+//! request, or an error; never a panic.
 
-use glasspoint_import::{read_dsc, read_table, ColumnChoice, Limits};
+use glasspoint_import::{
+    read_dsc, read_run, read_table, ColumnChoice, ColumnMapping, Limits, RunRole,
+};
 use proptest::prelude::*;
 
 fn small() -> Limits {
@@ -47,4 +50,38 @@ proptest! {
         prop_assert_eq!(&table.data[0], &t);
         prop_assert_eq!(&table.data[1], &h);
     }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(512))]
+
+    #[test]
+    fn any_bytes_give_a_run_a_mapping_request_or_an_error(
+        bytes in proptest::collection::vec(any::<u8>(), 0..3000)
+    ) {
+        let _ = read_run(&bytes[..], small(), None);
+        let _ = read_run(&bytes[..], small(), Some(&run_mapping()));
+    }
+
+    #[test]
+    fn any_run_looking_text_gives_a_run_a_mapping_request_or_an_error(
+        text in "(Time|Shelf|Probe edge|Pirani|CM|[0-9:.\\-T ]{1,12}|[,;\\t]|\\r?\\n|°C|mTorr|\\(h\\)|---){0,200}"
+    ) {
+        let _ = read_run(text.as_bytes(), small(), None);
+        let _ = read_run(text.as_bytes(), small(), Some(&run_mapping()));
+    }
+}
+
+fn run_mapping() -> Vec<ColumnMapping> {
+    [
+        ("Time", RunRole::Time),
+        ("Shelf", RunRole::Shelf),
+        ("Pirani", RunRole::Pirani),
+    ]
+    .into_iter()
+    .map(|(header, role)| ColumnMapping {
+        header: header.into(),
+        role,
+    })
+    .collect()
 }
