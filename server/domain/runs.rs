@@ -216,7 +216,7 @@ impl StoredSeries {
                 .iter()
                 .map(|p| StoredProbe {
                     label: p.header.clone(),
-                    position: p.site.label().to_string(),
+                    position: p.site.key().to_string(),
                     temp_c: column(&p.temp_c),
                 })
                 .collect(),

@@ -8,7 +8,7 @@
 mod calibration;
 mod context;
 
-pub use calibration::{kv_series, rp_of_run, KvSeries, KvSeriesRow};
+pub use calibration::{gravimetric, kv_series, rp_of_run, GravimetricRow, KvSeries, KvSeriesRow};
 pub use context::{load_context, RunContext};
 
 use glasspoint_science::runs::{

@@ -71,7 +71,7 @@ pub struct DetailPage {
     pub prediction: Option<Result<PredictionView, String>>,
     pub checks: Vec<ModelCheck>,
     pub kv: Option<KvSeries>,
-    pub this_grav: Vec<crate::runs::GravimetricRowView>,
+    pub this_grav: Vec<crate::runs::GravimetricRow>,
     pub rp: Option<Result<RpResult, String>>,
     pub secondary: Option<Result<SecondaryKinetics, String>>,
     pub query: PageQuery,
@@ -138,7 +138,7 @@ pub async fn build(
     let this_grav = kv
         .as_ref()
         .and_then(|k| k.rows.iter().find(|r| r.run_id == id))
-        .map(|r| r.rows.iter().map(crate::runs::GravimetricRowView::from).collect())
+        .map(|r| r.rows.iter().map(Clone::clone).collect())
         .unwrap_or_default();
     let rp = if ctx.run.kind == RunKind::Development {
         runs::rp_of_run(&ctx)

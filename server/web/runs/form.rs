@@ -53,7 +53,7 @@ impl MapView {
                         .find(|(h, _)| *h == c.header)
                         .map(|(_, r)| r.clone())
                         .unwrap_or_else(|| c.suggested.to_string());
-                    let unit = c.unit.map(|u| format!("{u:?}")).unwrap_or_default();
+                    let unit = c.unit.map(|u| u.label().to_string()).unwrap_or_default();
                     (c.header.clone(), unit, role)
                 })
                 .collect(),
