@@ -23,6 +23,11 @@ pub const TOPICS: &[&str] = &[
     "suggest-primary-drying",
     "cycle-check",
     "dsc-analysis",
+    "kv-from-gravimetric",
+    "kv-fit",
+    "rp-from-product-temperature",
+    "secondary-drying-kinetics",
+    "end-of-primary-drying",
 ];
 
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -53,6 +58,13 @@ pub fn run(topic: &str, input: Value) -> Result<Value, CalcError> {
         "suggest-primary-drying" => crate::suggest::calc_suggest_primary_drying(input),
         "cycle-check" => crate::verdict::calc_cycle_check(input),
         "dsc-analysis" => crate::dsc::calc_dsc_analysis(input),
+        "kv-from-gravimetric" => crate::runs::topic::calc_kv_from_gravimetric(input),
+        "kv-fit" => crate::runs::topic::calc_kv_fit(input),
+        "rp-from-product-temperature" => {
+            crate::runs::topic::calc_rp_from_product_temperature(input)
+        }
+        "secondary-drying-kinetics" => crate::runs::topic::calc_secondary_drying_kinetics(input),
+        "end-of-primary-drying" => crate::runs::topic::calc_end_of_primary_drying(input),
         other => return Err(CalcError::UnknownTopic(other.to_string())),
     };
     Ok(out?)

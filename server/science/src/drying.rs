@@ -524,6 +524,23 @@ impl Product {
     pub fn outer_area_cm2(&self) -> f64 {
         self.av_m2 * 1e4
     }
+
+    /// Ap, the inner cross-section the ice fills, cm².
+    pub fn inner_area_cm2(&self) -> f64 {
+        self.ap_m2 * 1e4
+    }
+
+    pub fn ice_density_g_cm3(&self) -> f64 {
+        self.ice_density_kg_m3 * 1e-3
+    }
+
+    pub fn ice_conductivity_w_mk(&self) -> f64 {
+        self.ice_conductivity
+    }
+
+    pub fn sublimation_enthalpy_j_g(&self) -> f64 {
+        self.enthalpy_j_kg * 1e-3
+    }
 }
 
 /// Ice formed in one vial, g: the fill's water less the water that never freezes,

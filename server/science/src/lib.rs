@@ -21,6 +21,7 @@ pub mod ice;
 pub mod limit;
 pub mod mixture;
 pub mod roots;
+pub mod runs;
 pub mod suggest;
 pub mod units;
 pub mod verdict;
