@@ -14,6 +14,7 @@ pub mod config;
 pub mod derive;
 pub mod domain;
 pub mod error;
+pub mod runs;
 pub mod storage;
 pub mod web;
 

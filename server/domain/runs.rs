@@ -226,7 +226,6 @@ impl StoredSeries {
         }
     }
 
-impl StoredSeries {
     pub fn rows(&self) -> usize {
         self.time_h.len()
     }

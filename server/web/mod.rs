@@ -17,6 +17,7 @@ pub use formulations::ListQuery as FormulationListQuery;
 mod materials;
 mod measurements;
 pub mod records;
+mod runs;
 mod sign_in;
 pub mod traces;
 pub mod upload;
@@ -50,6 +51,7 @@ pub fn router() -> Router<AppState> {
         .merge(containers::router())
         .merge(dryers::router())
         .merge(traces::router())
+        .merge(runs::router())
         .merge(cycles::router())
         .merge(calculators::router())
         .merge(sign_in::router())

@@ -11,6 +11,7 @@ use super::super::upload::{read_upload, Upload};
 use super::super::{render, see_other};
 use crate::auth::Actor;
 use crate::domain::runs::*;
+use crate::domain::fields::format_date;
 use crate::domain::*;
 use crate::{AppError, AppState};
 

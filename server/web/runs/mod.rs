@@ -5,7 +5,6 @@ mod adopt;
 mod chart;
 mod detail;
 mod form;
-pub mod reading;
 
 use askama::Template;
 use axum::extract::{DefaultBodyLimit, State};
@@ -18,8 +17,6 @@ use super::render;
 use crate::domain::runs::{Run, RunKind, MAX_RUN_FILE_BYTES};
 use crate::storage::RunFilter;
 use crate::{AppError, AppState};
-
-pub use reading::CAUTION;
 
 pub fn router() -> Router<AppState> {
     let upload = DefaultBodyLimit::max(MAX_RUN_FILE_BYTES + 64 * 1024);
