@@ -190,7 +190,8 @@ pub struct ProbeArrival {
 /// For each probe, the time after `after_h` from which it stays within `tolerance_c` below
 /// the shelf (or above it) to its last reading, interpolated between the last reading
 /// outside and the next. Missing readings are skipped; a probe whose last reading is still
-/// outside has not arrived.
+/// outside has not arrived. During a shelf ramp a probe trails the shelf, so pass the series
+/// up to the end of primary drying ([`RunSeries::between`]).
 pub fn probe_arrivals(series: &RunSeries, after_h: f64, tolerance_c: f64) -> Vec<ProbeArrival> {
     series
         .probes

@@ -71,6 +71,8 @@ pub struct SecondaryKinetics {
 
 struct Group {
     temp_c: f64,
+    /// Time of the group's first sample, h.
+    start_h: f64,
     /// (time from the group's first sample, water fraction), by time.
     points: Vec<(f64, f64)>,
 }
@@ -222,20 +224,21 @@ fn shelf_temp(field: &str, v: f64) -> Result<f64, InputError> {
 
 /// Groups of samples (sorted by time) within [`SAME_TEMPERATURE_C`] of the group's first.
 fn group_by_temperature(samples: &[MoistureSample]) -> Vec<Group> {
-    let mut groups: Vec<(f64, f64, Vec<(f64, f64)>)> = Vec::new();
+    let mut groups: Vec<Group> = Vec::new();
     for s in samples {
         match groups
             .iter_mut()
-            .find(|g| (g.0 - s.shelf_temp_c).abs() <= SAME_TEMPERATURE_C)
+            .find(|g| (g.temp_c - s.shelf_temp_c).abs() <= SAME_TEMPERATURE_C)
         {
-            Some(g) => g.2.push((s.time_h - g.1, s.water_fraction)),
-            None => groups.push((s.shelf_temp_c, s.time_h, vec![(0.0, s.water_fraction)])),
+            Some(g) => g.points.push((s.time_h - g.start_h, s.water_fraction)),
+            None => groups.push(Group {
+                temp_c: s.shelf_temp_c,
+                start_h: s.time_h,
+                points: vec![(0.0, s.water_fraction)],
+            }),
         }
     }
     groups
-        .into_iter()
-        .map(|(temp_c, _, points)| Group { temp_c, points })
-        .collect()
 }
 
 /// We in [0, w_min) minimising the misfit.

@@ -112,6 +112,28 @@ impl RunSeries {
             .map(Vec::as_slice)
     }
 
+    /// The same series cut to the rows whose time lies in `[from_h, until_h]`.
+    pub fn between(&self, from_h: f64, until_h: f64) -> RunSeries {
+        let rows = self.rows_between(from_h, until_h);
+        let cut = |v: &Vec<f64>| v.get(rows.clone()).map(<[f64]>::to_vec).unwrap_or_default();
+        RunSeries {
+            time_h: cut(&self.time_h),
+            shelf_c: cut(&self.shelf_c),
+            probes: self
+                .probes
+                .iter()
+                .map(|p| Probe {
+                    label: p.label.clone(),
+                    position: p.position,
+                    temp_c: cut(&p.temp_c),
+                })
+                .collect(),
+            manometer_mtorr: self.manometer_mtorr.as_ref().map(cut),
+            pirani_mtorr: self.pirani_mtorr.as_ref().map(cut),
+            condenser_c: self.condenser_c.as_ref().map(cut),
+        }
+    }
+
     /// The rows whose time lies in `[from_h, until_h]`, as a range of indices.
     pub fn rows_between(&self, from_h: f64, until_h: f64) -> std::ops::Range<usize> {
         let start = self.time_h.partition_point(|&t| t < from_h);
