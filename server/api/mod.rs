@@ -6,6 +6,7 @@ mod cycles;
 pub mod extract;
 mod input;
 mod records;
+mod runs;
 mod traces;
 
 use axum::extract::FromRequest;
@@ -26,6 +27,7 @@ pub fn router() -> Router<AppState> {
         .merge(calc::router())
         .merge(audit::router())
         .merge(traces::router())
+        .merge(runs::router())
         .fallback(|| async { ApiError(crate::AppError::NotFound("This API route".into())) })
 }
 
@@ -68,6 +70,11 @@ pub fn router() -> Router<AppState> {
         traces::upload_trace,
         traces::get_trace,
         traces::get_original,
+        runs::list_runs,
+        runs::get_run,
+        runs::create_run,
+        runs::replace_data,
+        runs::get_original,
     ),
     components(schemas(
         input::FormulationInput,
@@ -95,6 +102,13 @@ pub fn router() -> Router<AppState> {
         crate::domain::Container,
         crate::domain::Dryer,
         crate::domain::DryerPoint,
+        crate::domain::runs::Run,
+        crate::domain::runs::MoistureEntry,
+        crate::domain::runs::VialWeight,
+        crate::domain::runs::RunKind,
+        crate::domain::runs::CakeAppearance,
+        crate::domain::runs::VialLocation,
+        crate::domain::ReviewState,
     ))
 )]
 struct ApiDoc;
