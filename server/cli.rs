@@ -191,8 +191,9 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
             }
             if demo {
                 let report = store.seed_demo().await?;
+                let runs = crate::runs::demo::seed_runs(&store).await?;
                 eprintln!(
-                    "glasspoint: demo scenario: {} formulations, {} measurements and {} cycles added",
+                    "glasspoint: demo scenario: {} formulations, {} measurements, {} cycles and {runs} runs added",
                     report.formulations, report.measurements, report.cycles
                 );
                 print_demo_users(&report);
@@ -230,8 +231,9 @@ async fn run(command: Command) -> Result<ExitCode, AppError> {
         Command::SeedDemo { db } => {
             let (store, _) = open(db).await?;
             let r = store.seed_demo().await?;
+            let runs = crate::runs::demo::seed_runs(&store).await?;
             eprintln!(
-                "glasspoint: demo scenario loaded: {} materials, {} formulations, {} measurements, {} cycles added",
+                "glasspoint: demo scenario loaded: {} materials, {} formulations, {} measurements, {} cycles and {runs} runs added",
                 r.materials, r.formulations, r.measurements, r.cycles
             );
             print_demo_users(&r);

@@ -7,6 +7,7 @@
 
 mod calibration;
 mod context;
+pub mod demo;
 
 pub use calibration::{gravimetric, kv_series, rp_of_run, GravimetricRow, KvSeries, KvSeriesRow};
 pub use context::{load_context, RunContext};
@@ -89,9 +90,20 @@ impl Reading {
 /// and every probe excursion above `limit_c` during primary drying.
 pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
     let mut notes = Vec::new();
-    let end_point = match (&series.pirani_mtorr, &series.manometer_mtorr) {
+    // The phases from the shelf and the vacuum alone first: the gauges' fall is read only
+    // within primary drying, so the pump-down from atmosphere is not taken for it.
+    let rough = find_phases(series, None);
+    let rough_primary = rough.iter().find(|p| p.kind == PhaseKind::Primary);
+    let primary_start_h = rough_primary.map(|p| p.start_h);
+    let last_h = series.time_h.last().copied().unwrap_or(0.0);
+    let window = match primary_start_h {
+        Some(start) => series.between(start, last_h),
+        None => series.clone(),
+    };
+    let end_point = match (&window.pirani_mtorr, &window.manometer_mtorr) {
         (Some(p), Some(m)) => Some(
-            comparative_pressure(&series.time_h, p, m).map_err(|e| format!("{}: {}", e.field, e.message)),
+            comparative_pressure(&window.time_h, p, m)
+                .map_err(|e| format!("{}: {}", e.field, e.message)),
         ),
         _ => {
             notes.push(
@@ -103,13 +115,11 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
         }
     };
     let gauge_end = end_point.as_ref().and_then(|r| r.as_ref().ok()).map(|e| e.end_h);
-    let first = find_phases(series, gauge_end);
-    let primary_start_h = first
-        .iter()
-        .find(|p| p.kind == PhaseKind::Primary)
-        .map(|p| p.start_h);
+    // A probe is read against the shelf within primary drying only (up to the shelf's
+    // ramp to secondary drying, on which it trails the shelf).
+    let primary_until = rough_primary.map_or(last_h, |p| p.end_h);
     let arrivals = probe_arrivals(
-        series,
+        &series.between(primary_start_h.unwrap_or(0.0), primary_until),
         primary_start_h.unwrap_or(0.0),
         ARRIVAL_TOLERANCE_C,
     );
@@ -128,14 +138,21 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
         }),
         (None, None) => None,
     };
-    // Phases again with the end found from the probes when the gauges gave none.
-    let phases = if gauge_end.is_none() && measured_end.is_some() {
-        find_phases(series, measured_end.as_ref().map(|m| m.end_h))
-    } else {
-        first
+    // The phases again, primary drying ending where it was measured to end.
+    let phases = match &measured_end {
+        Some(m) => find_phases(series, Some(m.end_h)),
+        None => rough,
     };
-    let excursions = match (limit_c, phases.iter().find(|p| p.kind == PhaseKind::Primary)) {
-        (Some(limit), Some(primary)) => excursions(series, limit, primary.start_h, primary.end_h),
+    let primary = phases.iter().find(|p| p.kind == PhaseKind::Primary);
+    let excursions = match (limit_c, primary) {
+        (Some(limit), Some(primary)) => {
+            notes.push(
+                "Each probe is read against the limit while its vial holds ice: from the start of \
+                 primary drying until the probe reaches the shelf."
+                    .into(),
+            );
+            probe_excursions(series, &arrivals, limit, primary)
+        }
         (None, _) => {
             notes.push(
                 "The formulation has no maximum product temperature yet, so excursions are not \
@@ -159,6 +176,31 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
         excursions,
         notes,
     }
+}
+
+/// Excursions of each probe above `limit_c` while its vial holds ice.
+fn probe_excursions(
+    series: &RunSeries,
+    arrivals: &[ProbeArrival],
+    limit_c: f64,
+    primary: &Phase,
+) -> Vec<Excursion> {
+    let mut out = Vec::new();
+    for probe in &series.probes {
+        let until = arrivals
+            .iter()
+            .find(|a| a.label == probe.label)
+            .and_then(|a| a.time_h)
+            .unwrap_or(primary.end_h)
+            .min(primary.end_h);
+        let one = RunSeries {
+            probes: vec![probe.clone()],
+            ..series.clone()
+        };
+        out.extend(excursions(&one, limit_c, primary.start_h, until));
+    }
+    out.sort_by(|a, b| a.start_h.total_cmp(&b.start_h));
+    out
 }
 
 /// First-order secondary-drying kinetics from a run's moisture samples, with the hold to
