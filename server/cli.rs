@@ -104,7 +104,9 @@ enum Command {
     Calc {
         /// ice-vapor-pressure, mixture-tg, cake-tg, cake-moisture-limit, product-limit,
         /// formulation-estimate, annealing-advice, gordon-taylor-fit, primary-drying,
-        /// design-space, suggest-primary-drying, cycle-check, dsc-analysis
+        /// design-space, suggest-primary-drying, cycle-check, dsc-analysis,
+        /// kv-from-gravimetric, kv-fit, rp-from-product-temperature,
+        /// secondary-drying-kinetics, end-of-primary-drying
         topic: String,
         /// Read the input from this file instead of standard input.
         #[arg(long)]

@@ -36,7 +36,7 @@ pub async fn run_calc(store: Option<&Store>, topic: &str, input: Value) -> Resul
 }
 
 #[utoipa::path(post, path = "/api/v1/calc/{topic}",
-    params(("topic" = String, Path, description = "ice-vapor-pressure | mixture-tg | cake-tg | cake-moisture-limit | product-limit | formulation-estimate | annealing-advice | gordon-taylor-fit | primary-drying | design-space | suggest-primary-drying | cycle-check | dsc-analysis")),
+    params(("topic" = String, Path, description = "ice-vapor-pressure | mixture-tg | cake-tg | cake-moisture-limit | product-limit | formulation-estimate | annealing-advice | gordon-taylor-fit | primary-drying | design-space | suggest-primary-drying | cycle-check | dsc-analysis | kv-from-gravimetric | kv-fit | rp-from-product-temperature | secondary-drying-kinetics | end-of-primary-drying")),
     request_body = Object,
     responses((status = 200, description = "The topic's result"), (status = 404, body = super::ErrorBody), (status = 422, body = super::ErrorBody)))]
 pub async fn calc(

@@ -167,7 +167,10 @@ async fn report(state: &AppState, id: i64) -> Result<RunReport, AppError> {
         .map(|r| r.rows.iter().map(GravimetricView::from).collect())
         .unwrap_or_default();
     let kv_fit = kv.as_ref().and_then(|k| k.fit.clone()).and_then(Result::ok);
-    let edge_heat_factor = kv.as_ref().and_then(|k| k.edge_factor.clone()).and_then(Result::ok);
+    let edge_heat_factor = kv
+        .as_ref()
+        .and_then(|k| k.edge_factor.clone())
+        .and_then(Result::ok);
     let (resistance, resistance_problem) = split(if ctx.run.kind == RunKind::Development {
         rp_of_run(&ctx)
     } else {
@@ -274,7 +277,9 @@ async fn read_export(
                 "reasons": req.reasons,
                 "preview": req.preview,
             });
-            Ok(Err((StatusCode::UNPROCESSABLE_ENTITY, Json(body)).into_response()))
+            Ok(Err(
+                (StatusCode::UNPROCESSABLE_ENTITY, Json(body)).into_response()
+            ))
         }
         Err(errors) => Err(AppError::Fields(errors)),
     }
@@ -333,7 +338,10 @@ pub async fn replace_data(
         Ok(None) => return Err(AppError::input("file", "the file is empty").into()),
         Err(response) => return Ok(response),
     };
-    state.store.set_run_data(&actor, id, version, &data, &reason).await?;
+    state
+        .store
+        .set_run_data(&actor, id, version, &data, &reason)
+        .await?;
     if let Some(dryer) = run.dryer_id {
         state.store.remember_column_map(&actor, dryer, &map).await?;
     }

@@ -252,7 +252,9 @@ pub fn read_recorded(
 ) -> Result<ReadOutcome, FieldErrors> {
     use glasspoint_import::{read_run, ColumnMapping, Limits, RunRead, RunRole};
     if bytes.is_empty() {
-        return Err(FieldError::new("file", "choose the dryer's data export (the file is empty)").into());
+        return Err(
+            FieldError::new("file", "choose the dryer's data export (the file is empty)").into(),
+        );
     }
     let name = file_name.trim();
     let mut e = FieldErrors::default();
@@ -292,7 +294,11 @@ pub fn read_recorded(
             import_notes.extend(r.notes.iter().cloned());
             Ok(ReadOutcome::Ready {
                 data: RecordedData {
-                    file_name: if name.is_empty() { "run-data.txt".into() } else { name },
+                    file_name: if name.is_empty() {
+                        "run-data.txt".into()
+                    } else {
+                        name
+                    },
                     content_sha256,
                     series: StoredSeries::from_import(&r),
                     import_notes,
@@ -440,7 +446,8 @@ fn parse_moisture(e: &mut FieldErrors, raw: &str) -> Vec<MoistureEntry> {
             Some("the water content must lie between 0 and 100 % w/w".to_string())
         } else if method.is_empty() {
             Some("name the method (e.g. Karl Fischer)".to_string())
-        } else if method.chars().count() > limits::NAME_CHARS || method.chars().any(char::is_control)
+        } else if method.chars().count() > limits::NAME_CHARS
+            || method.chars().any(char::is_control)
         {
             Some(format!(
                 "the method must be plain text of at most {} characters",
@@ -502,7 +509,9 @@ fn parse_weights(e: &mut FieldErrors, raw: &str) -> Vec<VialWeight> {
             return out;
         };
         let problem = if b <= 0.0 || b > MAX_VIAL_G || a <= 0.0 || a > MAX_VIAL_G {
-            Some(format!("masses must lie above 0 and at most {MAX_VIAL_G} g"))
+            Some(format!(
+                "masses must lie above 0 and at most {MAX_VIAL_G} g"
+            ))
         } else if a >= b {
             Some("the mass after must be below the mass before (the vial lost ice)".to_string())
         } else {
@@ -523,7 +532,11 @@ fn parse_weights(e: &mut FieldErrors, raw: &str) -> Vec<VialWeight> {
 
 fn id_list(e: &mut FieldErrors, field: &str, raw: &str) -> Vec<i64> {
     let mut ids = Vec::new();
-    for part in raw.split([',', ' ']).map(str::trim).filter(|s| !s.is_empty()) {
+    for part in raw
+        .split([',', ' '])
+        .map(str::trim)
+        .filter(|s| !s.is_empty())
+    {
         match part.parse::<i64>() {
             Ok(v) if v > 0 => {
                 if !ids.contains(&v) {
@@ -630,7 +643,10 @@ impl RunForm {
         check_positive(&mut e, "fill_volume_ml", fill, 1000.0, "mL");
         let formulation_ids = id_list(&mut e, "formulation_ids", &self.formulation_ids);
         if formulation_ids.is_empty() && !e.has("formulation_ids") {
-            e.add("formulation_ids", "choose at least one formulation of the load");
+            e.add(
+                "formulation_ids",
+                "choose at least one formulation of the load",
+            );
         }
         let probed = optional_id(&mut e, "probed_formulation_id", &self.probed_formulation_id);
         if let Some(p) = probed {
@@ -725,7 +741,10 @@ mod tests {
     fn the_form_text_reads_back_as_the_same_entries() {
         let d = form().parse().unwrap();
         let mut e = FieldErrors::default();
-        assert_eq!(parse_moisture(&mut e, &moisture_text(&d.moisture)), d.moisture);
+        assert_eq!(
+            parse_moisture(&mut e, &moisture_text(&d.moisture)),
+            d.moisture
+        );
         assert_eq!(parse_weights(&mut e, &weights_text(&d.weights)), d.weights);
         assert!(e.is_empty());
     }

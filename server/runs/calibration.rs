@@ -113,10 +113,7 @@ pub fn gravimetric(
     cycle_pressure_mtorr: f64,
 ) -> (f64, Vec<GravimetricRow>) {
     let reading = read(series, None);
-    let start = run
-        .test_start_h
-        .or(reading.primary_start_h)
-        .unwrap_or(0.0);
+    let start = run.test_start_h.or(reading.primary_start_h).unwrap_or(0.0);
     let end = run
         .test_end_h
         .or_else(|| series.time_h.last().copied())
@@ -141,7 +138,11 @@ pub fn gravimetric(
         let mean_loss = losses.iter().sum::<f64>() / losses.len() as f64;
         let wanted: &[ProbePosition] = match location {
             VialLocation::Centre => &[ProbePosition::Centre],
-            VialLocation::Edge => &[ProbePosition::Edge, ProbePosition::Front, ProbePosition::Back],
+            VialLocation::Edge => &[
+                ProbePosition::Edge,
+                ProbePosition::Front,
+                ProbePosition::Back,
+            ],
         };
         let (bottom, names) = mean_probe(series, wanted);
         let kv = if names.is_empty() {
@@ -195,7 +196,11 @@ pub async fn kv_series(
         })
         .await?;
     let mut rows = Vec::new();
-    for run in runs {
+    // A rejected test is left out, as rejected results are everywhere.
+    for run in runs
+        .into_iter()
+        .filter(|r| r.review_state != crate::domain::ReviewState::Rejected)
+    {
         let Some(stored) = store.run_series(run.id).await? else {
             continue;
         };
@@ -250,7 +255,11 @@ pub async fn kv_series(
 /// The dried-layer resistance from a run's centre probes during primary drying, with the
 /// container's current Kv.
 pub fn rp_of_run(ctx: &RunContext) -> Option<Result<RpResult, String>> {
-    let (series, reading, base) = (ctx.series.as_ref()?, ctx.reading.as_ref()?, ctx.base.as_ref()?);
+    let (series, reading, base) = (
+        ctx.series.as_ref()?,
+        ctx.reading.as_ref()?,
+        ctx.base.as_ref()?,
+    );
     let (bottom, names) = mean_probe(series, &[ProbePosition::Centre]);
     if names.is_empty() {
         return Some(Err(
@@ -267,7 +276,12 @@ pub fn rp_of_run(ctx: &RunContext) -> Option<Result<RpResult, String>> {
         .filter(|a| a.position == ProbePosition::Centre)
         .filter_map(|a| a.time_h)
         .fold(f64::INFINITY, f64::min)
-        .min(reading.measured_end.as_ref().map_or(f64::INFINITY, |m| m.end_h));
+        .min(
+            reading
+                .measured_end
+                .as_ref()
+                .map_or(f64::INFINITY, |m| m.end_h),
+        );
     let pick: Vec<usize> = (0..series.time_h.len())
         .filter(|&i| {
             let t = series.time_h[i];

@@ -213,7 +213,12 @@ fn predict(ctx: &RunContext) -> Option<Result<Prediction, String>> {
                 .and_then(|a| a.time_h)
                 .unwrap_or(f64::INFINITY)
                 .min(offset_h + c.drying_time_h)
-                .min(reading.measured_end.as_ref().map_or(f64::INFINITY, |m| m.end_h));
+                .min(
+                    reading
+                        .measured_end
+                        .as_ref()
+                        .map_or(f64::INFINITY, |m| m.end_h),
+                );
             compare_probe(probe, &series.time_h, &t, &y, offset_h, until)
         })
         .collect();

@@ -68,7 +68,10 @@ pub fn export_text(series: &RunSeries) -> String {
         _ => String::new(),
     };
     for i in 0..series.time_h.len() {
-        let mut row = vec![cell(series.time_h.get(i), 4), cell(series.shelf_c.get(i), 2)];
+        let mut row = vec![
+            cell(series.time_h.get(i), 4),
+            cell(series.shelf_c.get(i), 2),
+        ];
         row.extend(series.probes.iter().map(|p| cell(p.temp_c.get(i), 2)));
         for gauge in [&series.manometer_mtorr, &series.pirani_mtorr] {
             if let Some(g) = gauge {
@@ -133,7 +136,13 @@ async fn scene(store: &Store) -> Result<Option<Scene>, AppError> {
         .map(|d| d.id);
     let materials = store.list_materials().await?;
     let resistance = resistance_of(store, &formulation).await?;
-    let base = drying_base(&formulation, &materials, &container, 2.0, resistance.resistance);
+    let base = drying_base(
+        &formulation,
+        &materials,
+        &container,
+        2.0,
+        resistance.resistance,
+    );
     Ok(Some(Scene {
         cycle_id,
         dryer_id,
@@ -170,7 +179,11 @@ fn draft(s: &Scene, name: &str, kind: RunKind, on: time::Date) -> RunDraft {
 /// weighed, one probe of each.
 async fn gravimetric_series(store: &Store, actor: &Actor, s: &Scene) -> Result<(), AppError> {
     let truth = true_base(&s.base);
-    let days = [date!(2026 - 10 - 5), date!(2026 - 10 - 7), date!(2026 - 10 - 9)];
+    let days = [
+        date!(2026 - 10 - 5),
+        date!(2026 - 10 - 7),
+        date!(2026 - 10 - 9),
+    ];
     for (i, (pressure, on)) in [60.0, 100.0, 200.0].into_iter().zip(days).enumerate() {
         let (hours, shelf) = (8.0, -25.0);
         let seed = 40 + i as u64;
@@ -209,7 +222,12 @@ async fn gravimetric_series(store: &Store, actor: &Actor, s: &Scene) -> Result<(
             before_g: 9.41,
             after_g: 9.41 - edge_g * f,
         }));
-        let mut d = draft(s, &format!("Kv test at {pressure} mTorr"), RunKind::Gravimetric, on);
+        let mut d = draft(
+            s,
+            &format!("Kv test at {pressure} mTorr"),
+            RunKind::Gravimetric,
+            on,
+        );
         d.chamber_pressure_mtorr = Some(pressure);
         d.test_start_h = Some(0.0);
         d.test_end_h = Some(hours);
@@ -280,7 +298,12 @@ async fn development_run(store: &Store, actor: &Actor, s: &Scene) -> Result<(), 
         noise: 0.0005,
         seed: 11,
     });
-    let mut d = draft(s, "Platform A, development run 1", RunKind::Development, date!(2026 - 10 - 20));
+    let mut d = draft(
+        s,
+        "Platform A, development run 1",
+        RunKind::Development,
+        date!(2026 - 10 - 20),
+    );
     d.moisture = samples
         .iter()
         .map(|m| MoistureEntry {

@@ -13,9 +13,9 @@ pub use calibration::{gravimetric, kv_series, rp_of_run, GravimetricRow, KvSerie
 pub use context::{load_context, RunContext};
 
 use glasspoint_science::runs::{
-    comparative_pressure, excursions, find_phases, probe_arrivals, secondary_kinetics,
-    Excursion, MoistureSample, Phase, PhaseKind, PressureEndPoint, ProbeArrival, ProbePosition,
-    RpResult, RunSeries, SecondaryInput, SecondaryKinetics,
+    comparative_pressure, excursions, find_phases, probe_arrivals, secondary_kinetics, Excursion,
+    MoistureSample, Phase, PhaseKind, PressureEndPoint, ProbeArrival, ProbePosition, RpResult,
+    RunSeries, SecondaryInput, SecondaryKinetics,
 };
 
 use crate::domain::runs::StoredSeries;
@@ -114,7 +114,10 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
             None
         }
     };
-    let gauge_end = end_point.as_ref().and_then(|r| r.as_ref().ok()).map(|e| e.end_h);
+    let gauge_end = end_point
+        .as_ref()
+        .and_then(|r| r.as_ref().ok())
+        .map(|e| e.end_h);
     // A probe is read against the shelf within primary drying only (up to the shelf's
     // ramp to secondary drying, on which it trails the shelf).
     let primary_until = rough_primary.map_or(last_h, |p| p.end_h);
@@ -126,7 +129,9 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
     let last_arrival = arrivals
         .iter()
         .filter_map(|a| a.time_h)
-        .fold(None, |acc: Option<f64>, t| Some(acc.map_or(t, |a| a.max(t))));
+        .fold(None, |acc: Option<f64>, t| {
+            Some(acc.map_or(t, |a| a.max(t)))
+        });
     let measured_end = match (gauge_end, last_arrival) {
         (Some(end_h), _) => Some(MeasuredEnd {
             end_h,
@@ -162,7 +167,9 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
             Vec::new()
         }
         (Some(_), None) => {
-            notes.push("No primary drying was found in the record, so excursions are not read.".into());
+            notes.push(
+                "No primary drying was found in the record, so excursions are not read.".into(),
+            );
             Vec::new()
         }
     };
@@ -256,7 +263,11 @@ pub fn moisture_target(
         .filter(|c| c.freezing_behaviour != FreezingBehaviour::Crystallizes)
         .filter_map(|c| {
             let m = materials.iter().find(|m| m.id == c.material_id)?;
-            Some((c, m.value(PropertyKind::Tg)?, m.value(PropertyKind::GordonTaylorK)?))
+            Some((
+                c,
+                m.value(PropertyKind::Tg)?,
+                m.value(PropertyKind::GordonTaylorK)?,
+            ))
         })
         .max_by(|a, b| a.0.solid_fraction.total_cmp(&b.0.solid_fraction));
     let Some((c, tg, k)) = main else {

@@ -12,8 +12,8 @@ use super::{now, on_pool, Store};
 use crate::auth::Actor;
 use crate::domain::runs::CalibrationKind;
 use crate::domain::{Entity, Role};
-use glasspoint_science::drying::Resistance;
 use crate::error::AppError;
+use glasspoint_science::drying::Resistance;
 
 /// One adoption as stored.
 #[derive(Debug, Clone, serde::Serialize, utoipa::ToSchema)]
@@ -174,9 +174,14 @@ impl Store {
                 .execute(&mut **c)
                 .await?;
         });
-        let id =
-            insert_calibration(&mut w, actor, CalibrationKind::Resistance, formulation_id, a)
-                .await?;
+        let id = insert_calibration(
+            &mut w,
+            actor,
+            CalibrationKind::Resistance,
+            formulation_id,
+            a,
+        )
+        .await?;
         w.finish(formulation_id).await?;
         Ok(id)
     }
@@ -207,7 +212,10 @@ impl Store {
             return Err(AppError::input("reason", "at most 2000 characters"));
         }
         if a.run_ids.is_empty() {
-            return Err(AppError::input("runs", "an adoption names the runs it came from"));
+            return Err(AppError::input(
+                "runs",
+                "an adoption names the runs it came from",
+            ));
         }
         let target = Target::update(entity, id, Some(a.expected_version));
         self.begin_write(actor, target, reason).await
@@ -257,16 +265,23 @@ impl Store {
 
     /// A run's model checks, oldest first.
     pub async fn model_checks_of(&self, run_id: i64) -> Result<Vec<ModelCheck>, AppError> {
-        let rows: Vec<(String, String, Option<f64>, Option<f64>, Option<f64>, Option<f64>, OffsetDateTime)> =
-            on_pool!(self, pool => {
-                sqlx::query_as(
-                    "SELECT basis, basis_key, predicted_end_h, measured_end_h, end_error_h, probe_rmse_c, checked_at \
-                     FROM run_model_checks WHERE run_id = $1 ORDER BY id",
-                )
-                .bind(run_id)
-                .fetch_all(pool)
-                .await?
-            });
+        let rows: Vec<(
+            String,
+            String,
+            Option<f64>,
+            Option<f64>,
+            Option<f64>,
+            Option<f64>,
+            OffsetDateTime,
+        )> = on_pool!(self, pool => {
+            sqlx::query_as(
+                "SELECT basis, basis_key, predicted_end_h, measured_end_h, end_error_h, probe_rmse_c, checked_at \
+                 FROM run_model_checks WHERE run_id = $1 ORDER BY id",
+            )
+            .bind(run_id)
+            .fetch_all(pool)
+            .await?
+        });
         Ok(rows
             .into_iter()
             .map(|r| ModelCheck {

@@ -8,8 +8,8 @@ use time::{Date, OffsetDateTime};
 use super::write::{on_tx, Target};
 use super::{now, on_pool, Store};
 use crate::auth::Actor;
-use crate::domain::runs::*;
 use crate::domain::fields::format_date;
+use crate::domain::runs::*;
 use crate::domain::*;
 use crate::error::AppError;
 
@@ -40,7 +40,8 @@ struct RunRow {
     created_at: OffsetDateTime,
 }
 
-const SELECT: &str = "SELECT id, name, kind, cycle_id, dryer_id, run_on, container_id, vial_count, \
+const SELECT: &str =
+    "SELECT id, name, kind, cycle_id, dryer_id, run_on, container_id, vial_count, \
      fill_volume_ml, probed_formulation_id, chamber_pressure_mtorr, test_start_h, test_end_h, \
      cake_appearance, cake_notes, notes, review_state, file_name, content_sha256, byte_count, \
      import_notes, version, created_at FROM runs";
@@ -100,7 +101,11 @@ fn to_run(r: RunRow) -> Result<Run, AppError> {
 /// Writes a run's load and manual entries, replacing what it had.
 macro_rules! write_children {
     ($c:expr, $id:expr, $d:expr) => {{
-        for table in ["run_formulations", "run_moisture_samples", "run_vial_weights"] {
+        for table in [
+            "run_formulations",
+            "run_moisture_samples",
+            "run_vial_weights",
+        ] {
             sqlx::query(&format!("DELETE FROM {table} WHERE run_id = $1"))
                 .bind($id)
                 .execute(&mut **$c)
@@ -268,7 +273,10 @@ impl Store {
             if let Some(v) = f.formulation_id { q = q.bind(v); }
             q.fetch_all(pool).await?
         });
-        let mut runs = rows.into_iter().map(to_run).collect::<Result<Vec<_>, _>>()?;
+        let mut runs = rows
+            .into_iter()
+            .map(to_run)
+            .collect::<Result<Vec<_>, _>>()?;
         self.fill_children(&mut runs).await?;
         Ok(runs)
     }
@@ -301,7 +309,9 @@ impl Store {
             .transpose()
             .map_err(|_| AppError::input("file", "is too large"))?
             .unwrap_or(0);
-        let mut w = self.begin_write(actor, Target::create(Entity::Run), "").await?;
+        let mut w = self
+            .begin_write(actor, Target::create(Entity::Run), "")
+            .await?;
         let id = on_tx!(&mut w.tx, c => {
             check_references!(c, d);
             let (id,): (i64,) = sqlx::query_as(
@@ -353,7 +363,11 @@ impl Store {
         reason: &str,
     ) -> Result<(), AppError> {
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Run, id, Some(version)), reason)
+            .begin_write(
+                actor,
+                Target::update(Entity::Run, id, Some(version)),
+                reason,
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             check_references!(c, d);
@@ -400,7 +414,11 @@ impl Store {
         let byte_count =
             i64::try_from(data.bytes.len()).map_err(|_| AppError::input("file", "is too large"))?;
         let mut w = self
-            .begin_write(actor, Target::update(Entity::Run, id, Some(version)), reason)
+            .begin_write(
+                actor,
+                Target::update(Entity::Run, id, Some(version)),
+                reason,
+            )
             .await?;
         on_tx!(&mut w.tx, c => {
             sqlx::query(

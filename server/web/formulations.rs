@@ -387,6 +387,7 @@ struct DetailPage {
     summaries: Vec<ReplicateSummary>,
     groups: Vec<(MeasurementKind, Vec<Measurement>)>,
     traces: Vec<crate::domain::traces::TraceMeta>,
+    runs: Vec<super::runs::RunRow>,
 }
 
 #[derive(Debug, Default, Deserialize)]
@@ -439,6 +440,14 @@ async fn detail(
     let resistance = crate::derive::resistance_of(&state.store, &f).await?;
     let summaries = summarise(&measurements);
     let traces = state.store.traces_of(id).await?;
+    let runs = super::runs::rows(
+        &state,
+        crate::storage::RunFilter {
+            formulation_id: Some(id),
+            ..Default::default()
+        },
+    )
+    .await?;
     let groups = MeasurementKind::ALL
         .iter()
         .map(|k| {
@@ -477,6 +486,7 @@ async fn detail(
         summaries,
         groups,
         traces,
+        runs,
     }))
 }
 

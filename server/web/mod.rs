@@ -17,7 +17,7 @@ pub use formulations::ListQuery as FormulationListQuery;
 mod materials;
 mod measurements;
 pub mod records;
-mod runs;
+pub mod runs;
 mod sign_in;
 pub mod traces;
 pub mod upload;

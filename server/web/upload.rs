@@ -111,4 +111,3 @@ pub fn attachment(name: &str, bytes: Vec<u8>) -> Response {
     }
     r
 }
-

@@ -92,6 +92,7 @@ struct DetailPage {
     default_edge_share: String,
     errors: FieldErrors,
     caution: &'static str,
+    runs: Vec<crate::web::runs::RunRow>,
 }
 
 #[derive(Default)]
@@ -112,6 +113,14 @@ async fn detail_page(
 ) -> Result<Response, AppError> {
     let c = state.store.get_cycle(id).await?;
     let links = assess_all(state, state.store.links_of_cycle(id).await?).await?;
+    let runs = crate::web::runs::rows(
+        state,
+        crate::storage::RunFilter {
+            cycle_id: Some(id),
+            ..Default::default()
+        },
+    )
+    .await?;
     let formulations = state
         .store
         .search_formulations(&Default::default(), Default::default(), 1, 200)
@@ -152,6 +161,7 @@ async fn detail_page(
         default_edge_share: number_text(glasspoint_science::batch::DEFAULT_EDGE_SHARE),
         errors,
         caution: caution(),
+        runs,
     }))
 }
 

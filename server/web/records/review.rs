@@ -23,6 +23,7 @@ pub struct Waiting {
 struct ReviewPage {
     measurements: Vec<Waiting>,
     formulations: Vec<Waiting>,
+    runs: Vec<Waiting>,
 }
 
 fn describe(m: &Measurement, code: &str) -> String {
@@ -87,8 +88,33 @@ pub async fn queue(State(state): State<AppState>, actor: Actor) -> Result<Respon
                 .contains(&me),
         });
     }
+    let mut runs = Vec::new();
+    for r in state
+        .store
+        .list_runs(crate::storage::RunFilter::default())
+        .await?
+        .into_iter()
+        .filter(|r| r.review_state == ReviewState::Recorded)
+    {
+        runs.push(Waiting {
+            entity: Entity::Run,
+            id: r.id,
+            title: r.name.clone(),
+            detail: format!(
+                "{}, {}",
+                r.kind.label(),
+                crate::domain::fields::format_date(r.run_on)
+            ),
+            own: state
+                .store
+                .authors_of(Entity::Run, r.id)
+                .await?
+                .contains(&me),
+        });
+    }
     Ok(render(ReviewPage {
         measurements,
         formulations,
+        runs,
     }))
 }

@@ -38,13 +38,27 @@ pub async fn adopt(
         Ok(()) => Ok(see_other(&format!("/runs/{id}#model-error"))),
         Err(AppError::Input(e)) => {
             let errors: FieldErrors = e.into();
-            let page = build(&state, id, PageQuery::default(), errors, form.reason.clone()).await?;
+            let page = build(
+                &state,
+                id,
+                PageQuery::default(),
+                errors,
+                form.reason.clone(),
+            )
+            .await?;
             Ok(unprocessable(render(page)))
         }
         Err(AppError::Conflict(message)) => {
             let mut errors = FieldErrors::default();
             errors.add("target_version", message);
-            let page = build(&state, id, PageQuery::default(), errors, form.reason.clone()).await?;
+            let page = build(
+                &state,
+                id,
+                PageQuery::default(),
+                errors,
+                form.reason.clone(),
+            )
+            .await?;
             Ok(unprocessable(render(page)))
         }
         Err(other) => Err(other),
@@ -58,11 +72,12 @@ pub async fn adopt_one(
     id: i64,
     form: &AdoptForm,
 ) -> Result<(), AppError> {
-    let expected_version: i64 = form
-        .target_version
-        .trim()
-        .parse()
-        .map_err(|_| AppError::input("target_version", "the form lost the version; reload the page"))?;
+    let expected_version: i64 = form.target_version.trim().parse().map_err(|_| {
+        AppError::input(
+            "target_version",
+            "the form lost the version; reload the page",
+        )
+    })?;
     let stored = state.store.user_by_name(&actor.username).await?;
     let ok = stored
         .as_ref()
@@ -74,7 +89,14 @@ pub async fn adopt_one(
         ));
     }
     let ctx = load_context(&state.store, id, state.config.margin_c).await?;
-    let unavailable = |what: &str| AppError::input("kind", format!("this run offers no {what} to adopt"));
+    if ctx.run.review_state == crate::domain::ReviewState::Rejected {
+        return Err(AppError::input(
+            "kind",
+            "this run was rejected in review, so nothing is adopted from it",
+        ));
+    }
+    let unavailable =
+        |what: &str| AppError::input("kind", format!("this run offers no {what} to adopt"));
     match form.kind.as_str() {
         "kv" => {
             let series = kv_series(&state.store, &ctx.container, ctx.run.dryer_id).await?;
@@ -99,11 +121,21 @@ pub async fn adopt_one(
             };
             state
                 .store
-                .adopt_kv(actor, ctx.container.id, fit.kc_cal_s_cm2_k, fit.kp_cal_s_cm2_k_torr, fit.kd_per_torr, &adoption)
+                .adopt_kv(
+                    actor,
+                    ctx.container.id,
+                    fit.kc_cal_s_cm2_k,
+                    fit.kp_cal_s_cm2_k_torr,
+                    fit.kd_per_torr,
+                    &adoption,
+                )
                 .await?;
         }
         "edge_factor" => {
-            let dryer = ctx.dryer.as_ref().ok_or_else(|| unavailable("edge factor (no dryer is named)"))?;
+            let dryer = ctx
+                .dryer
+                .as_ref()
+                .ok_or_else(|| unavailable("edge factor (no dryer is named)"))?;
             let series = kv_series(&state.store, &ctx.container, Some(dryer.id)).await?;
             let Some(Ok(factor)) = series.edge_factor else {
                 return Err(unavailable("edge factor"));
@@ -124,10 +156,16 @@ pub async fn adopt_one(
                 reason: &form.reason,
                 expected_version,
             };
-            state.store.adopt_edge_factor(actor, dryer.id, factor, &adoption).await?;
+            state
+                .store
+                .adopt_edge_factor(actor, dryer.id, factor, &adoption)
+                .await?;
         }
         "resistance" => {
-            let f = ctx.formulation.as_ref().ok_or_else(|| unavailable("Rp (no probed formulation)"))?;
+            let f = ctx
+                .formulation
+                .as_ref()
+                .ok_or_else(|| unavailable("Rp (no probed formulation)"))?;
             let Some(Ok(rp)) = rp_of_run(&ctx) else {
                 return Err(unavailable("Rp"));
             };
@@ -150,7 +188,10 @@ pub async fn adopt_one(
                 reason: &form.reason,
                 expected_version,
             };
-            state.store.adopt_resistance(actor, f.id, &r, &adoption).await?;
+            state
+                .store
+                .adopt_resistance(actor, f.id, &r, &adoption)
+                .await?;
         }
         other => {
             return Err(AppError::input(
@@ -163,5 +204,8 @@ pub async fn adopt_one(
 }
 
 fn id_list(ids: &[i64]) -> String {
-    ids.iter().map(i64::to_string).collect::<Vec<_>>().join(", ")
+    ids.iter()
+        .map(i64::to_string)
+        .collect::<Vec<_>>()
+        .join(", ")
 }

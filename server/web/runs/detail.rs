@@ -5,7 +5,9 @@
 use askama::Template;
 use axum::extract::State;
 use axum::response::Response;
-use glasspoint_science::runs::{Excursion, Phase, PressureEndPoint, ProbeArrival, RpResult, SecondaryKinetics};
+use glasspoint_science::runs::{
+    Excursion, Phase, PressureEndPoint, ProbeArrival, RpResult, SecondaryKinetics,
+};
 
 use super::super::extract::{Path, Query};
 use super::super::records::{signature_views, SignatureView};
@@ -116,7 +118,10 @@ pub async fn build(
                 .as_ref()
                 .and_then(|r| r.measured_end.as_ref())
                 .map(|m| m.end_h);
-            state.store.record_model_check(id, &p.model_check(measured)).await?;
+            state
+                .store
+                .record_model_check(id, &p.model_check(measured))
+                .await?;
             Some(Ok(PredictionView {
                 basis: p.basis.clone(),
                 first_dry_h: p.first_dry_h(),
@@ -155,7 +160,12 @@ pub async fn build(
         calibrations.extend(state.store.calibrations_of(Entity::Dryer, d.id).await?);
     }
     if let Some(f) = &ctx.formulation {
-        calibrations.extend(state.store.calibrations_of(Entity::Formulation, f.id).await?);
+        calibrations.extend(
+            state
+                .store
+                .calibrations_of(Entity::Formulation, f.id)
+                .await?,
+        );
     }
     calibrations.retain(|c| c.run_ids.contains(&id));
     let reading = ctx.reading.as_ref();
@@ -163,7 +173,12 @@ pub async fn build(
         cycle_name: ctx.cycle.name.clone(),
         container_name: ctx.container.name.clone(),
         dryer_name: ctx.dryer.as_ref().map(|d| d.name.clone()),
-        formulations: ctx.run.formulation_ids.iter().map(|f| (*f, code_of(*f))).collect(),
+        formulations: ctx
+            .run
+            .formulation_ids
+            .iter()
+            .map(|f| (*f, code_of(*f)))
+            .collect(),
         probed_code: ctx.formulation.as_ref().map(|f| f.code.clone()),
         pressure_mtorr: ctx.pressure_mtorr,
         caution: runs::CAUTION,
@@ -202,7 +217,12 @@ async fn secondary_of(
     if ctx.run.moisture.is_empty() {
         return Ok((None, String::new()));
     }
-    let typed = q.target_percent.trim().replace(',', ".").parse::<f64>().ok();
+    let typed = q
+        .target_percent
+        .trim()
+        .replace(',', ".")
+        .parse::<f64>()
+        .ok();
     let at = q
         .at_shelf_c
         .trim()
@@ -219,14 +239,21 @@ async fn secondary_of(
                 Err(why) => (None, why),
             }
         }
-        (None, None) => (None, "no formulation is probed, so no target follows from storage".into()),
+        (None, None) => (
+            None,
+            "no formulation is probed, so no target follows from storage".into(),
+        ),
     };
     Ok((runs::secondary(&ctx.run.moisture, target, at), words))
 }
 
 /// The calibrations this run can offer: Kv and the edge factor from a gravimetric series,
 /// Rp from a cycle run's centre probes.
-fn offers(ctx: &RunContext, kv: Option<&KvSeries>, rp: Option<&Result<RpResult, String>>) -> Vec<Offer> {
+fn offers(
+    ctx: &RunContext,
+    kv: Option<&KvSeries>,
+    rp: Option<&Result<RpResult, String>>,
+) -> Vec<Offer> {
     let mut out = Vec::new();
     if let Some(Ok(fit)) = kv.and_then(|k| k.fit.as_ref()) {
         out.push(Offer {

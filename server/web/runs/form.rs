@@ -10,8 +10,8 @@ use super::super::formulations::{into_field_errors, unprocessable};
 use super::super::upload::{read_upload, Upload};
 use super::super::{render, see_other};
 use crate::auth::Actor;
-use crate::domain::runs::*;
 use crate::domain::fields::format_date;
+use crate::domain::runs::*;
 use crate::domain::*;
 use crate::{AppError, AppState};
 
@@ -104,19 +104,28 @@ async fn form_page(
             .list_cycles(false)
             .await?
             .into_iter()
-            .map(|c| Choice { id: c.id, label: c.name })
+            .map(|c| Choice {
+                id: c.id,
+                label: c.name,
+            })
             .collect(),
         containers: s
             .list_containers()
             .await?
             .into_iter()
-            .map(|c| Choice { id: c.id, label: c.name })
+            .map(|c| Choice {
+                id: c.id,
+                label: c.name,
+            })
             .collect(),
         dryers: s
             .list_dryers()
             .await?
             .into_iter()
-            .map(|d| Choice { id: d.id, label: d.name })
+            .map(|d| Choice {
+                id: d.id,
+                label: d.name,
+            })
             .collect(),
         formulations: s
             .formulation_codes()
@@ -266,7 +275,9 @@ pub async fn create(
         }
         Err(e) => {
             let errors = into_field_errors(e)?;
-            Ok(unprocessable(form_page(&state, None, form, errors, None).await?))
+            Ok(unprocessable(
+                form_page(&state, None, form, errors, None).await?,
+            ))
         }
     }
 }
@@ -276,7 +287,14 @@ pub async fn edit_form(
     Path(id): Path<i64>,
 ) -> Result<Response, AppError> {
     let run = state.store.get_run(id).await?;
-    form_page(&state, Some(id), RunForm::from_run(&run), FieldErrors::default(), None).await
+    form_page(
+        &state,
+        Some(id),
+        RunForm::from_run(&run),
+        FieldErrors::default(),
+        None,
+    )
+    .await
 }
 
 /// Saves a changed run; a new export given with it replaces the recorded data.
@@ -291,12 +309,21 @@ pub async fn update(
     let form = form_of(&up);
     let refuse = |errors: FieldErrors, map: Option<MapView>, form: RunForm| {
         let state = state.clone();
-        async move { Ok(unprocessable(form_page(&state, Some(id), form, errors, map).await?)) }
+        async move {
+            Ok(unprocessable(
+                form_page(&state, Some(id), form, errors, map).await?,
+            ))
+        }
     };
     let version = match form.version.trim().parse::<i64>() {
         Ok(v) => v,
         Err(_) => {
-            return refuse(FieldError::new("version", "is missing; reload the page").into(), None, form).await
+            return refuse(
+                FieldError::new("version", "is missing; reload the page").into(),
+                None,
+                form,
+            )
+            .await
         }
     };
     let draft = match form.parse() {
@@ -323,7 +350,11 @@ pub async fn update(
             form.reason.as_str()
         };
         let now = state.store.get_run(id).await?.version;
-        if let Err(e) = state.store.set_run_data(&actor, id, now, &data, reason).await {
+        if let Err(e) = state
+            .store
+            .set_run_data(&actor, id, now, &data, reason)
+            .await
+        {
             let mut form = form;
             form.version = now.to_string();
             return refuse(into_field_errors(e)?, None, form).await;

@@ -23,7 +23,10 @@ pub fn router() -> Router<AppState> {
     Router::new()
         .route("/runs", get(list).post(form::create).layer(upload))
         .route("/runs/new", get(form::new_form))
-        .route("/runs/{id}", get(detail::page).post(form::update).layer(upload))
+        .route(
+            "/runs/{id}",
+            get(detail::page).post(form::update).layer(upload),
+        )
         .route("/runs/{id}/edit", get(form::edit_form))
         .route("/runs/{id}/chart.svg", get(chart::temperatures))
         .route("/runs/{id}/pressures.svg", get(chart::pressures))
@@ -41,7 +44,7 @@ pub struct RunRow {
 #[derive(Template)]
 #[template(path = "runs/list.html")]
 struct ListPage {
-    rows: Vec<RunRow>,
+    runs: Vec<RunRow>,
 }
 
 #[derive(serde::Deserialize, Default)]
@@ -89,11 +92,14 @@ async fn list(
         kind: RunKind::parse(&q.kind),
     };
     Ok(render(ListPage {
-        rows: rows(&state, filter).await?,
+        runs: rows(&state, filter).await?,
     }))
 }
 
-async fn original(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
+async fn original(
+    State(state): State<AppState>,
+    Path(id): Path<i64>,
+) -> Result<Response, AppError> {
     let (name, bytes) = state.store.run_original(id).await?;
     Ok(super::upload::attachment(&name, bytes))
 }
