@@ -20,6 +20,7 @@ mod forms;
 mod injection;
 mod pages;
 mod review;
+mod run_loop;
 mod science_pages;
 mod sessions;
 mod storage;

@@ -73,10 +73,11 @@ pub fn export_text(series: &RunSeries) -> String {
             cell(series.shelf_c.get(i), 2),
         ];
         row.extend(series.probes.iter().map(|p| cell(p.temp_c.get(i), 2)));
-        for gauge in [&series.manometer_mtorr, &series.pirani_mtorr] {
-            if let Some(g) = gauge {
-                row.push(cell(g.get(i), 1));
-            }
+        for gauge in [&series.manometer_mtorr, &series.pirani_mtorr]
+            .into_iter()
+            .flatten()
+        {
+            row.push(cell(gauge.get(i), 1));
         }
         if let Some(c) = &series.condenser_c {
             row.push(cell(c.get(i), 1));

@@ -74,6 +74,16 @@ type CalibrationRow = (
     OffsetDateTime,
 );
 
+type CheckRow = (
+    String,
+    String,
+    Option<f64>,
+    Option<f64>,
+    Option<f64>,
+    Option<f64>,
+    OffsetDateTime,
+);
+
 fn stored(what: &str, e: impl std::fmt::Display) -> AppError {
     AppError::Internal(format!("stored calibration {what}: {e}"))
 }
@@ -265,15 +275,7 @@ impl Store {
 
     /// A run's model checks, oldest first.
     pub async fn model_checks_of(&self, run_id: i64) -> Result<Vec<ModelCheck>, AppError> {
-        let rows: Vec<(
-            String,
-            String,
-            Option<f64>,
-            Option<f64>,
-            Option<f64>,
-            Option<f64>,
-            OffsetDateTime,
-        )> = on_pool!(self, pool => {
+        let rows: Vec<CheckRow> = on_pool!(self, pool => {
             sqlx::query_as(
                 "SELECT basis, basis_key, predicted_end_h, measured_end_h, end_error_h, probe_rmse_c, checked_at \
                  FROM run_model_checks WHERE run_id = $1 ORDER BY id",

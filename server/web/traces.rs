@@ -98,7 +98,6 @@ pub async fn read_multipart(req: Request) -> Result<(TraceForm, Vec<u8>), AppErr
         temperature_column: up.text("temperature_column"),
         heat_flow_column: up.text("heat_flow_column"),
         time_column: up.text("time_column"),
-        ..Default::default()
     };
     Ok((form, up.bytes))
 }
