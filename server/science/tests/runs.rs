@@ -267,6 +267,31 @@ fn a_piecewise_linear_pirani_fall_gives_its_corners_exactly() {
 }
 
 #[test]
+fn the_pump_down_from_atmosphere_is_not_read_as_the_end_of_primary_drying() {
+    // The same fixture after a pump-down from 760 Torr over the first hour (both gauges
+    // reading alike): the far larger fall of the pump-down must not be taken for the end.
+    let time: Vec<f64> = (0..=200).map(|i| i as f64 * 0.1).collect();
+    let pump = |t: f64| 760_000.0 * (1.0 - t).max(0.0) + 100.0;
+    let pirani: Vec<f64> = time
+        .iter()
+        .map(|&t| match t {
+            t if t < 1.0 => pump(t),
+            t if t <= 10.0 => 150.0,
+            t if t < 12.0 => 150.0 - 25.0 * (t - 10.0),
+            _ => 100.0,
+        })
+        .collect();
+    let manometer: Vec<f64> = time
+        .iter()
+        .map(|&t| if t < 1.0 { pump(t) } else { 100.0 })
+        .collect();
+    let end = comparative_pressure(&time, &pirani, &manometer).unwrap();
+    assert_relative_eq!(end.onset_h, 10.0, max_relative = 1e-9);
+    assert_relative_eq!(end.midpoint_h, 11.0, max_relative = 1e-9);
+    assert_relative_eq!(end.end_h, 12.0, max_relative = 1e-9);
+}
+
+#[test]
 fn a_pirani_that_never_meets_the_manometer_is_no_end_point() {
     let time = [0.0, 1.0, 2.0, 3.0];
     let err = comparative_pressure(&time, &[150.0, 150.0, 130.0, 120.0], &[100.0; 4]).unwrap_err();

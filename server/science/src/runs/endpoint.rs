@@ -57,8 +57,9 @@ fn median(values: &mut [f64]) -> Option<f64> {
 }
 
 /// Onset, midpoint and end of primary drying from the Pirani against the manometer (module
-/// docs). Give the part of the run from the start of primary drying on; rows where either
-/// gauge has no reading (NaN) are skipped.
+/// docs). Rows where either gauge has no reading (NaN) are skipped, and so are the rows
+/// before the manometer first reads a vacuum (the pump-down from atmosphere is not the
+/// fall this reads).
 pub fn comparative_pressure(
     time_h: &[f64],
     pirani_mtorr: &[f64],
@@ -89,6 +90,9 @@ pub fn comparative_pressure(
                 format!("{field}[{i}]"),
                 "a pressure reading must be greater than zero",
             ));
+        }
+        if rows.is_empty() && manometer >= super::phases::VACUUM_MTORR {
+            continue;
         }
         rows.push((t, pirani, manometer));
     }
