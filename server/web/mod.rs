@@ -60,19 +60,28 @@ pub fn router() -> Router<AppState> {
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 
-/// Whether `path` takes a DSC trace upload (`/formulations/{id}/traces`, also under
-/// `/api/v1`): those bodies may be up to `MAX_TRACE_BYTES`.
+/// Whether `path` takes a file upload (a DSC trace on `/formulations/{id}/traces`, a run's
+/// data export on `/runs`, `/runs/{id}` and `/runs/{id}/data`; also under `/api/v1`):
+/// those bodies may be as large as the file limits.
 pub fn is_upload_path(path: &str) -> bool {
     let bare = path.strip_prefix("/api/v1").unwrap_or(path);
     let parts: Vec<&str> = bare.split('/').collect();
-    matches!(parts.as_slice(), ["", "formulations", id, "traces"] if !id.is_empty())
+    match parts.as_slice() {
+        ["", "formulations", id, "traces"] => !id.is_empty(),
+        // A run's form carries its data export: recording, changing, replacing the data.
+        ["", "runs"] => true,
+        ["", "runs", id] | ["", "runs", id, "data"] => !id.is_empty(),
+        _ => false,
+    }
 }
 
 /// The body limit of a request to `path`: the configured one, or the larger upload limit
 /// on the trace upload routes.
 pub fn body_limit_for(path: &str, configured: usize) -> usize {
     if is_upload_path(path) {
-        configured.max(crate::domain::traces::MAX_TRACE_BYTES)
+        configured
+            .max(crate::domain::traces::MAX_TRACE_BYTES)
+            .max(crate::domain::runs::MAX_RUN_FILE_BYTES + 64 * 1024)
     } else {
         configured
     }
