@@ -165,6 +165,16 @@ try {
   const ds = await page.$$eval('img.chart', (imgs) => imgs.map((i) => i.naturalWidth));
   check(ds.length === 1 && ds[0] > 0, 'the design-space chart loads');
 
+  // A run read against its prediction: both charts load, the reading is there.
+  await page.goto(`${base}/runs`);
+  await page.locator('td a', { hasText: 'development run' }).first().click();
+  await page.waitForLoadState('load');
+  const runCharts = await page.$$eval('img.chart', (imgs) => imgs.map((i) => ({ src: i.src, w: i.naturalWidth })));
+  check(runCharts.length === 2 && runCharts.every((i) => i.w > 0), `the run page's two charts load: ${JSON.stringify(runCharts)}`);
+  const runText = await page.textContent('main');
+  check(runText.includes('Pirani against the capacitance manometer') && runText.includes('basis by basis'),
+    'the run page shows the end point from the gauges and the model error basis by basis');
+
   // A form with a bad value: the message is shown, the typed values stay.
   await page.goto(`${base}/formulations/new`);
   check(((await page.inputValue('form input[name=csrf_token]').catch(() => '')) ?? '').length >= 16, 'the form carries its security token');
