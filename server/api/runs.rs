@@ -8,8 +8,7 @@ use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use axum::{Json, Router};
 use glasspoint_science::runs::{
-    Excursion, KvFit, Phase, PressureEndPoint, ProbeArrival, ProbeComparison, RpResult,
-    SecondaryKinetics,
+    Excursion, KvFit, Phase, PressureEndPoint, ProbeArrival, RpResult, SecondaryKinetics,
 };
 
 use super::extract::{Path, Query};
@@ -18,6 +17,7 @@ use crate::domain::runs::*;
 use crate::error::ApiError;
 use crate::runs::{kv_series, load_context, rp_of_run, secondary, GravimetricRow};
 use crate::storage::{ModelCheck, RunFilter};
+use crate::web::runs::form::{form_of, mapping_for, typed_map};
 use crate::web::upload::{read_upload, Upload};
 use crate::{AppError, AppState};
 
@@ -88,17 +88,6 @@ impl From<&GravimetricRow> for GravimetricView {
     }
 }
 
-/// The model rerun for the run's load on today's basis.
-#[derive(serde::Serialize)]
-pub struct PredictionView {
-    pub basis: String,
-    pub first_dry_h: f64,
-    pub last_dry_h: f64,
-    pub end_error_h: Option<f64>,
-    pub probe_rmse_c: Option<f64>,
-    pub probes: Vec<ProbeComparison>,
-}
-
 /// A run and everything read from it.
 #[derive(serde::Serialize)]
 pub struct RunReport {
@@ -112,7 +101,7 @@ pub struct RunReport {
     pub measured_end_basis: Option<String>,
     pub max_product_temp_c: Option<f64>,
     pub excursions: Vec<Excursion>,
-    pub prediction: Option<PredictionView>,
+    pub prediction: Option<crate::runs::PredictionSummary>,
     pub prediction_problem: Option<String>,
     /// The model's error against this run, one row per basis it was checked on.
     pub model_checks: Vec<ModelCheck>,
@@ -143,18 +132,11 @@ async fn report(state: &AppState, id: i64) -> Result<RunReport, AppError> {
         let check = p.model_check(measured_end.as_ref().map(|m| m.end_h));
         state.store.record_model_check(id, &check).await?;
     }
-    let (prediction, prediction_problem) = split(ctx.prediction.as_ref().map(|r| {
-        r.as_ref()
-            .map(|p| PredictionView {
-                basis: p.basis.clone(),
-                first_dry_h: p.first_dry_h(),
-                last_dry_h: p.last_dry_h(),
-                end_error_h: p.end_error_h,
-                probe_rmse_c: p.probe_rmse_c(),
-                probes: p.comparisons.clone(),
-            })
-            .map_err(Clone::clone)
-    }));
+    let (prediction, prediction_problem) = split(
+        ctx.prediction
+            .as_ref()
+            .map(|r| r.as_ref().map(|p| p.summary()).map_err(Clone::clone)),
+    );
     let (end_point, end_point_problem) = split(reading.and_then(|r| r.end_point.clone()));
     let kv = if ctx.run.kind == RunKind::Gravimetric {
         Some(kv_series(&state.store, &ctx.container, ctx.run.dryer_id).await?)
@@ -217,33 +199,6 @@ pub async fn get_run(
     Ok(Json(report(&state, id).await?))
 }
 
-fn form_of(up: &Upload) -> RunForm {
-    let t = |n: &str| up.text(n);
-    RunForm {
-        name: t("name"),
-        kind: t("kind"),
-        cycle_id: t("cycle_id"),
-        dryer_id: t("dryer_id"),
-        run_on: t("run_on"),
-        container_id: t("container_id"),
-        vial_count: t("vial_count"),
-        fill_volume_ml: t("fill_volume_ml"),
-        formulation_ids: String::new(),
-        probed_formulation_id: t("probed_formulation_id"),
-        chamber_pressure_mtorr: t("chamber_pressure_mtorr"),
-        test_start_h: t("test_start_h"),
-        test_end_h: t("test_end_h"),
-        cake_appearance: t("cake_appearance"),
-        cake_notes: t("cake_notes"),
-        notes: t("notes"),
-        moisture: t("moisture"),
-        weights: t("weights"),
-        version: t("version"),
-        reason: t("reason"),
-    }
-    .with_formulations(&up.all("formulation_ids"))
-}
-
 /// The export read with the columns given (`map_header`/`map_role` pairs), else the
 /// dryer's remembered ones, else guessed; a 422 naming `mapping` lists the columns when
 /// they must be chosen.
@@ -255,16 +210,7 @@ async fn read_export(
     if up.bytes.is_empty() {
         return Ok(Ok(None));
     }
-    let typed: Vec<(String, String)> = up
-        .all("map_header")
-        .into_iter()
-        .zip(up.all("map_role"))
-        .collect();
-    let mapping = match (typed.is_empty(), dryer_id) {
-        (false, _) => typed,
-        (true, Some(d)) => state.store.dryer_column_map(d).await?,
-        (true, None) => Vec::new(),
-    };
+    let mapping = mapping_for(state, &typed_map(&up), dryer_id).await?;
     match read_recorded(&up.file_name, up.bytes, &mapping) {
         Ok(ReadOutcome::Ready { data, mapping }) => Ok(Ok(Some((data, mapping)))),
         Ok(ReadOutcome::NeedsMapping(req)) => {

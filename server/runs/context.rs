@@ -64,6 +64,17 @@ impl Prediction {
         })
     }
 
+    pub fn summary(&self) -> PredictionSummary {
+        PredictionSummary {
+            basis: self.basis.clone(),
+            first_dry_h: self.first_dry_h(),
+            last_dry_h: self.last_dry_h(),
+            end_error_h: self.end_error_h,
+            probe_rmse_c: self.probe_rmse_c(),
+            probes: self.comparisons.clone(),
+        }
+    }
+
     pub fn model_check(&self, measured_end_h: Option<f64>) -> ModelCheck {
         ModelCheck {
             basis: self.basis.clone(),
@@ -75,6 +86,17 @@ impl Prediction {
             checked_at: OffsetDateTime::now_utc(),
         }
     }
+}
+
+/// A prediction's figures, for the page and the API.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct PredictionSummary {
+    pub basis: String,
+    pub first_dry_h: f64,
+    pub last_dry_h: f64,
+    pub end_error_h: Option<f64>,
+    pub probe_rmse_c: Option<f64>,
+    pub probes: Vec<ProbeComparison>,
 }
 
 /// A run with what it is read against.

@@ -10,7 +10,7 @@ mod context;
 pub mod demo;
 
 pub use calibration::{gravimetric, kv_series, rp_of_run, GravimetricRow, KvSeries, KvSeriesRow};
-pub use context::{load_context, RunContext};
+pub use context::{load_context, PredictionSummary, RunContext};
 
 use glasspoint_science::runs::{
     comparative_pressure, excursions, find_phases, probe_arrivals, secondary_kinetics, Excursion,

@@ -14,6 +14,7 @@ use crate::{AppError, AppState};
 
 pub use audit::{audit_filter, AuditQuery};
 pub use history::{signature_views, SignatureView};
+pub use signing::confirm_password;
 
 pub fn router() -> Router<AppState> {
     Router::new()

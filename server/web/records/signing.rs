@@ -109,6 +109,28 @@ pub async fn form(
     .await
 }
 
+/// Re-authentication for a signed act: `password` must be the signed-in person's own
+/// (an enabled account); otherwise an error naming `password` that ends with `outcome`.
+pub async fn confirm_password(
+    state: &AppState,
+    actor: &Actor,
+    password: &str,
+    outcome: &str,
+) -> Result<(), AppError> {
+    let stored = state.store.user_by_name(&actor.username).await?;
+    let ok = stored
+        .as_ref()
+        .is_some_and(|(u, hash)| !u.disabled && verify_password(hash, password));
+    if ok {
+        Ok(())
+    } else {
+        Err(AppError::input(
+            "password",
+            format!("that is not your password; {outcome}"),
+        ))
+    }
+}
+
 pub async fn sign(
     State(state): State<AppState>,
     actor: Actor,
@@ -123,16 +145,7 @@ pub async fn sign(
             AppError::input("version", "the form lost the version; reload the page")
         })?;
         // The signer proves it is them, now: the password again.
-        let stored = state.store.user_by_name(&actor.username).await?;
-        let ok = stored
-            .as_ref()
-            .is_some_and(|(u, hash)| !u.disabled && verify_password(hash, &form.password));
-        if !ok {
-            return Err(AppError::input(
-                "password",
-                "that is not your password; nothing was signed",
-            ));
-        }
+        confirm_password(&state, &actor, &form.password, "nothing was signed").await?;
         state
             .store
             .sign(

@@ -12,11 +12,11 @@ use super::super::extract::{Form, Path};
 use super::super::formulations::unprocessable;
 use super::super::{render, see_other};
 use super::detail::{build, PageQuery};
-use crate::auth::secrets::verify_password;
 use crate::auth::Actor;
-use crate::domain::FieldErrors;
+use crate::domain::{FieldError, FieldErrors};
 use crate::runs::{kv_series, load_context, rp_of_run};
 use crate::storage::Adoption;
+use crate::web::records::confirm_password;
 use crate::{AppError, AppState};
 
 #[derive(serde::Deserialize, Default)]
@@ -34,35 +34,22 @@ pub async fn adopt(
     Path(id): Path<i64>,
     Form(form): Form<AdoptForm>,
 ) -> Result<Response, AppError> {
-    match adopt_one(&state, &actor, id, &form).await {
-        Ok(()) => Ok(see_other(&format!("/runs/{id}#model-error"))),
-        Err(AppError::Input(e)) => {
-            let errors: FieldErrors = e.into();
-            let page = build(
-                &state,
-                id,
-                PageQuery::default(),
-                errors,
-                form.reason.clone(),
-            )
-            .await?;
-            Ok(unprocessable(render(page)))
-        }
-        Err(AppError::Conflict(message)) => {
-            let mut errors = FieldErrors::default();
-            errors.add("target_version", message);
-            let page = build(
-                &state,
-                id,
-                PageQuery::default(),
-                errors,
-                form.reason.clone(),
-            )
-            .await?;
-            Ok(unprocessable(render(page)))
-        }
-        Err(other) => Err(other),
-    }
+    let errors: FieldErrors = match adopt_one(&state, &actor, id, &form).await {
+        Ok(()) => return Ok(see_other(&format!("/runs/{id}#model-error"))),
+        Err(AppError::Input(e)) => e.into(),
+        // Someone changed the target since the page was shown: say so beside the form.
+        Err(AppError::Conflict(message)) => FieldError::new("target_version", message).into(),
+        Err(other) => return Err(other),
+    };
+    let page = build(
+        &state,
+        id,
+        PageQuery::default(),
+        errors,
+        form.reason.clone(),
+    )
+    .await?;
+    Ok(unprocessable(render(page)))
 }
 
 /// Adopts one calibration the run offers, as `actor`.
@@ -78,16 +65,7 @@ pub async fn adopt_one(
             "the form lost the version; reload the page",
         )
     })?;
-    let stored = state.store.user_by_name(&actor.username).await?;
-    let ok = stored
-        .as_ref()
-        .is_some_and(|(u, hash)| !u.disabled && verify_password(hash, &form.password));
-    if !ok {
-        return Err(AppError::input(
-            "password",
-            "that is not your password; nothing was adopted",
-        ));
-    }
+    confirm_password(state, actor, &form.password, "nothing was adopted").await?;
     let ctx = load_context(&state.store, id, state.config.margin_c).await?;
     if ctx.run.review_state == crate::domain::ReviewState::Rejected {
         return Err(AppError::input(

@@ -28,16 +28,6 @@ pub struct PageQuery {
     pub at_shelf_c: String,
 }
 
-/// A prediction's figures for the page.
-pub struct PredictionView {
-    pub basis: String,
-    pub first_dry_h: f64,
-    pub last_dry_h: f64,
-    pub end_error_h: Option<f64>,
-    pub probe_rmse_c: Option<f64>,
-    pub comparisons: Vec<glasspoint_science::runs::ProbeComparison>,
-}
-
 /// One calibration the run offers to adopt.
 pub struct Offer {
     /// "kv", "edge_factor" or "resistance".
@@ -70,7 +60,7 @@ pub struct DetailPage {
     pub limit_c: Option<f64>,
     pub excursions: Vec<Excursion>,
     pub reading_notes: Vec<String>,
-    pub prediction: Option<Result<PredictionView, String>>,
+    pub prediction: Option<Result<crate::runs::PredictionSummary, String>>,
     pub checks: Vec<ModelCheck>,
     pub kv: Option<KvSeries>,
     pub this_grav: Vec<crate::runs::GravimetricRow>,
@@ -122,14 +112,7 @@ pub async fn build(
                 .store
                 .record_model_check(id, &p.model_check(measured))
                 .await?;
-            Some(Ok(PredictionView {
-                basis: p.basis.clone(),
-                first_dry_h: p.first_dry_h(),
-                last_dry_h: p.last_dry_h(),
-                end_error_h: p.end_error_h,
-                probe_rmse_c: p.probe_rmse_c(),
-                comparisons: p.comparisons.clone(),
-            }))
+            Some(Ok(p.summary()))
         }
         Some(Err(e)) => Some(Err(e.clone())),
         None => None,

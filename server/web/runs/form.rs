@@ -172,7 +172,8 @@ pub async fn new_form(
     form_page(&state, None, form, FieldErrors::default(), None).await
 }
 
-fn form_of(up: &Upload) -> RunForm {
+/// The run form an upload carries (page and API alike).
+pub fn form_of(up: &Upload) -> RunForm {
     let t = |n: &str| up.text(n);
     RunForm {
         name: t("name"),
@@ -200,11 +201,25 @@ fn form_of(up: &Upload) -> RunForm {
 }
 
 /// The column choices the form sent: (header, role) pairs.
-fn typed_map(up: &Upload) -> Vec<(String, String)> {
+pub fn typed_map(up: &Upload) -> Vec<(String, String)> {
     up.all("map_header")
         .into_iter()
         .zip(up.all("map_role"))
         .collect()
+}
+
+/// The column map to read an export with: the one typed, else the dryer's remembered
+/// one, else none (the columns are chosen from their headers).
+pub async fn mapping_for(
+    state: &AppState,
+    typed: &[(String, String)],
+    dryer_id: Option<i64>,
+) -> Result<Vec<(String, String)>, AppError> {
+    Ok(match (typed.is_empty(), dryer_id) {
+        (false, _) => typed.to_vec(),
+        (true, Some(d)) => state.store.dryer_column_map(d).await?,
+        (true, None) => Vec::new(),
+    })
 }
 
 /// What became of an export: stored data, or a page to answer.
@@ -222,13 +237,7 @@ async fn read_data(state: &AppState, up: Upload, dryer_id: Option<i64>) -> Resul
         return Ok(Data::None);
     }
     let typed = typed_map(&up);
-    let mapping = if !typed.is_empty() {
-        typed.clone()
-    } else if let Some(d) = dryer_id {
-        state.store.dryer_column_map(d).await?
-    } else {
-        Vec::new()
-    };
+    let mapping = mapping_for(state, &typed, dryer_id).await?;
     Ok(match read_recorded(&up.file_name, up.bytes, &mapping) {
         Ok(ReadOutcome::Ready { data, mapping }) => Data::Read { data, mapping },
         Ok(ReadOutcome::NeedsMapping(req)) => {

@@ -4,7 +4,7 @@
 mod adopt;
 mod chart;
 mod detail;
-mod form;
+pub mod form;
 
 use askama::Template;
 use axum::extract::{DefaultBodyLimit, State};
