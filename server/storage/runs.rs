@@ -148,6 +148,27 @@ macro_rules! write_children {
     }};
 }
 
+/// Writes a run's recorded data: the export's bytes, their hash and the series read.
+macro_rules! write_data {
+    ($c:expr, $id:expr, $data:expr, $series:expr) => {{
+        let byte_count = i64::try_from($data.bytes.len())
+            .map_err(|_| AppError::input("file", "is too large"))?;
+        sqlx::query(
+            "UPDATE runs SET file_name = $1, original_bytes = $2, content_sha256 = $3, byte_count = $4, \
+             series_json = $5, import_notes = $6 WHERE id = $7",
+        )
+        .bind(&$data.file_name)
+        .bind($data.bytes.as_slice())
+        .bind(&$data.content_sha256)
+        .bind(byte_count)
+        .bind($series)
+        .bind($data.import_notes.join("\n"))
+        .bind($id)
+        .execute(&mut **$c)
+        .await?;
+    }};
+}
+
 /// Refuses a draft naming records that do not exist, naming the field.
 macro_rules! check_references {
     ($c:expr, $d:expr) => {{
@@ -353,15 +374,18 @@ impl Store {
         Ok(id)
     }
 
-    /// Changes what a run says (a reviewed run needs a reason).
+    /// Changes what a run says, and its recorded data when a new export is given, in one
+    /// change (a reviewed run needs a reason).
     pub async fn update_run(
         &self,
         actor: &Actor,
         id: i64,
         version: i64,
         d: &RunDraft,
+        data: Option<&RecordedData>,
         reason: &str,
     ) -> Result<(), AppError> {
+        let series = data.map(|r| json_text(&r.series)).transpose()?;
         let mut w = self
             .begin_write(
                 actor,
@@ -396,6 +420,9 @@ impl Store {
             .execute(&mut **c)
             .await?;
             write_children!(c, id, d);
+            if let (Some(data), Some(series)) = (data, &series) {
+                write_data!(c, id, data, series);
+            }
         });
         w.finish(id).await?;
         Ok(())

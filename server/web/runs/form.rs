@@ -347,30 +347,13 @@ pub async fn update(
     };
     if let Err(e) = state
         .store
-        .update_run(&actor, id, version, &draft, &form.reason)
+        .update_run(&actor, id, version, &draft, data.as_ref(), &form.reason)
         .await
     {
         return refuse(into_field_errors(e)?, None, form).await;
     }
-    if let Some(data) = data {
-        let reason = if form.reason.trim().is_empty() {
-            "New data export"
-        } else {
-            form.reason.as_str()
-        };
-        let now = state.store.get_run(id).await?.version;
-        if let Err(e) = state
-            .store
-            .set_run_data(&actor, id, now, &data, reason)
-            .await
-        {
-            let mut form = form;
-            form.version = now.to_string();
-            return refuse(into_field_errors(e)?, None, form).await;
-        }
-        if let (Some(dryer), Some(map)) = (draft.dryer_id, mapping) {
-            state.store.remember_column_map(&actor, dryer, &map).await?;
-        }
+    if let (Some(dryer), Some(map)) = (draft.dryer_id, mapping) {
+        state.store.remember_column_map(&actor, dryer, &map).await?;
     }
     Ok(see_other(&format!("/runs/{id}")))
 }
