@@ -20,6 +20,7 @@ mod forms;
 mod injection;
 mod pages;
 mod review;
+mod runs;
 mod science_pages;
 mod sessions;
 mod storage;
