@@ -89,9 +89,17 @@ impl Reading {
 /// and every probe excursion above `limit_c` during primary drying.
 pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
     let mut notes = Vec::new();
+    // The gauges are compared from the vacuum on: the pull-down from atmosphere before it
+    // is a fall of the Pirani too, and would be taken for the end of primary drying.
+    let from_row = find_phases(series, None)
+        .iter()
+        .find(|p| p.kind == PhaseKind::Primary)
+        .map_or(0, |p| series.time_h.partition_point(|&t| t < p.start_h));
+    let from = |v: &[f64]| v.get(from_row..).unwrap_or_default().to_vec();
     let end_point = match (&series.pirani_mtorr, &series.manometer_mtorr) {
         (Some(p), Some(m)) => Some(
-            comparative_pressure(&series.time_h, p, m).map_err(|e| format!("{}: {}", e.field, e.message)),
+            comparative_pressure(&from(&series.time_h), &from(p), &from(m))
+                .map_err(|e| format!("{}: {}", e.field, e.message)),
         ),
         _ => {
             notes.push(
