@@ -257,12 +257,15 @@ async fn read_export(
         .into_iter()
         .zip(up.all("map_role"))
         .collect();
-    let mapping = match (typed.is_empty(), dryer_id) {
-        (false, _) => typed,
-        (true, Some(d)) => state.store.dryer_column_map(d).await?,
-        (true, None) => Vec::new(),
+    let read = match (typed.is_empty(), dryer_id) {
+        (false, _) => read_recorded(&up.file_name, up.bytes, &typed),
+        (true, Some(d)) => {
+            let remembered = state.store.dryer_column_map(d).await?;
+            read_with_remembered_map(&up.file_name, up.bytes, &remembered)
+        }
+        (true, None) => read_recorded(&up.file_name, up.bytes, &[]),
     };
-    match read_recorded(&up.file_name, up.bytes, &mapping) {
+    match read {
         Ok(ReadOutcome::Ready { data, mapping }) => Ok(Ok(Some((data, mapping)))),
         Ok(ReadOutcome::NeedsMapping(req)) => {
             let body = serde_json::json!({

@@ -213,14 +213,15 @@ async fn read_data(state: &AppState, up: Upload, dryer_id: Option<i64>) -> Resul
         return Ok(Data::None);
     }
     let typed = typed_map(&up);
-    let mapping = if !typed.is_empty() {
-        typed.clone()
+    let read = if !typed.is_empty() {
+        read_recorded(&up.file_name, up.bytes, &typed)
     } else if let Some(d) = dryer_id {
-        state.store.dryer_column_map(d).await?
+        let remembered = state.store.dryer_column_map(d).await?;
+        read_with_remembered_map(&up.file_name, up.bytes, &remembered)
     } else {
-        Vec::new()
+        read_recorded(&up.file_name, up.bytes, &[])
     };
-    Ok(match read_recorded(&up.file_name, up.bytes, &mapping) {
+    Ok(match read {
         Ok(ReadOutcome::Ready { data, mapping }) => Data::Read { data, mapping },
         Ok(ReadOutcome::NeedsMapping(req)) => {
             let mut e = FieldErrors::default();
