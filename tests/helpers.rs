@@ -466,7 +466,12 @@ impl TestApp {
             .header(header::COOKIE, format!("gp_session={}", self.admin.cookie))
             .body(Body::empty())
             .unwrap();
-        let response = self.router.clone().oneshot(req).await.expect("router answers");
+        let response = self
+            .router
+            .clone()
+            .oneshot(req)
+            .await
+            .expect("router answers");
         let status = response.status();
         let headers = response.headers().clone();
         let bytes = response
