@@ -89,12 +89,13 @@ impl Reading {
 /// and every probe excursion above `limit_c` during primary drying.
 pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
     let mut notes = Vec::new();
+    // Primary drying from the vacuum to the shelf's last ramp, before any end is known.
+    let rough_primary = find_phases(series, None)
+        .into_iter()
+        .find(|p| p.kind == PhaseKind::Primary);
     // The gauges are compared from the vacuum on: the pull-down from atmosphere before it
     // is a fall of the Pirani too, and would be taken for the end of primary drying.
-    let from_row = find_phases(series, None)
-        .iter()
-        .find(|p| p.kind == PhaseKind::Primary)
-        .map_or(0, |p| series.time_h.partition_point(|&t| t < p.start_h));
+    let from_row = rough_primary.map_or(0, |p| series.time_h.partition_point(|&t| t < p.start_h));
     let from = |v: &[f64]| v.get(from_row..).unwrap_or_default().to_vec();
     let end_point = match (&series.pirani_mtorr, &series.manometer_mtorr) {
         (Some(p), Some(m)) => Some(
@@ -116,11 +117,16 @@ pub fn read(series: &RunSeries, limit_c: Option<f64>) -> Reading {
         .iter()
         .find(|p| p.kind == PhaseKind::Primary)
         .map(|p| p.start_h);
-    let arrivals = probe_arrivals(
-        series,
-        primary_start_h.unwrap_or(0.0),
-        ARRIVAL_TOLERANCE_C,
-    );
+    // Probes are read until the shelf ramps to secondary drying: during that ramp they
+    // trail the shelf, and would seem to arrive only when it holds again.
+    let arrivals = match rough_primary {
+        Some(p) => probe_arrivals(
+            &series.between(p.start_h, p.end_h),
+            p.start_h,
+            ARRIVAL_TOLERANCE_C,
+        ),
+        None => probe_arrivals(series, primary_start_h.unwrap_or(0.0), ARRIVAL_TOLERANCE_C),
+    };
     let last_arrival = arrivals
         .iter()
         .filter_map(|a| a.time_h)
