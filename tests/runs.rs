@@ -678,3 +678,38 @@ on_both_backends! {
         assert_eq!(last.reason, "typo in the name");
     }
 }
+
+on_both_backends! {
+    async fn without_a_pirani_the_end_of_primary_drying_is_read_from_the_probes(app) {
+        let r = refs(&app).await;
+        let (truth, _) = development_run(&r);
+        let mut series = truth.series.clone();
+        series.pirani_mtorr = None;
+        let csv = export_csv(&series, false).into_bytes();
+        let session = app.admin.clone();
+        let fields = run_fields(&r, "Probes only");
+        let body = multipart_body(None, &fields, Some(("probes.csv", &csv)));
+        let created = api_multipart(&app, &session, "/api/v1/runs", body).await;
+        assert_eq!(created.status, StatusCode::CREATED, "{}", created.body);
+        let j = created.json();
+        assert!(j["end_point"].is_null(), "no gauge pair, no gauge end point");
+        let basis = j["measured_end_basis"].as_str().unwrap_or("");
+        assert!(basis.contains("product probe"), "{basis}");
+        // The probes leave their vials' bottom temperature when the ice is gone and follow
+        // the shelf with a lag of PROBE_LAG_H; the last reaches it well before the shelf
+        // ramps to secondary drying.
+        let measured = j["measured_end_h"].as_f64().expect("a measured end");
+        let last_dry = truth.predicted_end_h.max(truth.edge_end_h);
+        assert!(
+            measured > last_dry && measured < last_dry + 1.0 && measured < truth.secondary_ramp_start_h,
+            "measured end {measured} h; last vials dry at {last_dry} h, the secondary ramp starts at {} h",
+            truth.secondary_ramp_start_h
+        );
+        for a in j["probe_arrivals"].as_array().unwrap() {
+            let t = a["time_h"].as_f64().expect("every probe arrives");
+            assert!(t < truth.secondary_ramp_start_h, "{a}");
+        }
+        let primary = j["phases"].as_array().unwrap().iter().find(|p| p["kind"] == "primary").expect("a primary phase");
+        assert!((primary["end_h"].as_f64().unwrap() - measured).abs() < 1e-6, "primary drying ends at the measured end");
+    }
+}
