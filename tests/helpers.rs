@@ -405,3 +405,82 @@ macro_rules! on_both_backends {
         }
     };
 }
+
+/// The boundary of the multipart bodies the tests build.
+pub const MULTIPART_BOUNDARY: &str = "glasspointTestBoundary7MA4YWxk";
+
+/// A multipart body as a browser sends it: the CSRF token first (when given), then the
+/// typed fields in order (repeat a name for repeated values), then the file (when given).
+pub fn multipart_body(
+    csrf: Option<&str>,
+    fields: &[(&str, &str)],
+    file: Option<(&str, &[u8])>,
+) -> Vec<u8> {
+    let mut body = Vec::new();
+    let mut part = |name: &str, value: &str| {
+        body.extend_from_slice(
+            format!(
+                "--{MULTIPART_BOUNDARY}\r\nContent-Disposition: form-data; name=\"{name}\"\r\n\r\n{value}\r\n"
+            )
+            .as_bytes(),
+        );
+    };
+    if let Some(token) = csrf {
+        part("csrf_token", token);
+    }
+    for (k, v) in fields {
+        part(k, v);
+    }
+    if let Some((file_name, bytes)) = file {
+        body.extend_from_slice(
+            format!(
+                "--{MULTIPART_BOUNDARY}\r\nContent-Disposition: form-data; name=\"file\"; filename=\"{file_name}\"\r\nContent-Type: text/csv\r\n\r\n"
+            )
+            .as_bytes(),
+        );
+        body.extend_from_slice(bytes);
+        body.extend_from_slice(b"\r\n");
+    }
+    body.extend_from_slice(format!("--{MULTIPART_BOUNDARY}--\r\n").as_bytes());
+    body
+}
+
+impl TestApp {
+    /// Posts a multipart body as a browser does: `session`'s cookie, no CSRF header (the
+    /// token travels in the body, or not at all).
+    pub async fn post_multipart(&self, session: &TestSession, path: &str, body: Vec<u8>) -> Reply {
+        let req = Request::post(path)
+            .header(
+                header::CONTENT_TYPE,
+                format!("multipart/form-data; boundary={MULTIPART_BOUNDARY}"),
+            )
+            .header(header::COOKIE, format!("gp_session={}", session.cookie))
+            .body(Body::from(body))
+            .unwrap();
+        self.raw(req).await
+    }
+
+    /// The bytes of a GET as the administrator, unchanged: (status, headers, body).
+    pub async fn get_bytes(&self, path: &str) -> (StatusCode, axum::http::HeaderMap, Vec<u8>) {
+        let req = Request::get(path)
+            .header(header::COOKIE, format!("gp_session={}", self.admin.cookie))
+            .body(Body::empty())
+            .unwrap();
+        let response = self
+            .router
+            .clone()
+            .oneshot(req)
+            .await
+            .expect("router answers");
+        let status = response.status();
+        let headers = response.headers().clone();
+        let bytes = response
+            .into_body()
+            .collect()
+            .await
+            .expect("body")
+            .to_bytes()
+            .to_vec();
+        (status, headers, bytes)
+    }
+}

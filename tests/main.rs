@@ -21,6 +21,7 @@ mod injection;
 mod pages;
 mod review;
 mod run_loop;
+mod runs;
 mod science_pages;
 mod sessions;
 mod storage;

@@ -4,11 +4,9 @@
 
 use axum::body::Body;
 use axum::http::{header, Request, StatusCode};
-use http_body_util::BodyExt;
-use tower::ServiceExt;
 
 use crate::audit_trail::all_events;
-use crate::helpers::{Reply, TestApp, TestSession};
+use crate::helpers::{multipart_body, Reply, TestApp, TestSession};
 use crate::on_both_backends;
 
 /// Exact synthetic fixture (references.md, DSC): f(T) = a + bT + (Δ/2)[1 + tanh((T − Tm)/w)]
@@ -36,47 +34,21 @@ fn tanh_trace(steps: usize) -> Vec<u8> {
     text
 }
 
-const BOUNDARY: &str = "glasspointTestBoundary7MA4YWxk";
-
 /// A multipart body: the CSRF token first (when given), then the typed fields, then the
 /// file.
 fn multipart(csrf: Option<&str>, fields: &[(&str, &str)], file_name: &str, file: &[u8]) -> Vec<u8> {
-    let mut body = Vec::new();
-    let mut part = |name: &str, value: &str| {
-        body.extend_from_slice(
-            format!("--{BOUNDARY}\r\nContent-Disposition: form-data; name=\"{name}\"\r\n\r\n{value}\r\n")
-                .as_bytes(),
-        );
-    };
-    if let Some(token) = csrf {
-        part("csrf_token", token);
-    }
-    for (k, v) in fields {
-        part(k, v);
-    }
-    body.extend_from_slice(
-        format!(
-            "--{BOUNDARY}\r\nContent-Disposition: form-data; name=\"file\"; filename=\"{file_name}\"\r\nContent-Type: text/csv\r\n\r\n"
-        )
-        .as_bytes(),
-    );
-    body.extend_from_slice(file);
-    body.extend_from_slice(format!("\r\n--{BOUNDARY}--\r\n").as_bytes());
-    body
+    multipart_body(csrf, fields, Some((file_name, file)))
 }
 
 /// Sends a multipart upload as a browser does: the session cookie, no CSRF header (the
 /// token travels in the body, or not at all).
 async fn upload(app: &TestApp, session: &TestSession, formulation: i64, body: Vec<u8>) -> Reply {
-    let req = Request::post(format!("/formulations/{formulation}/traces"))
-        .header(
-            header::CONTENT_TYPE,
-            format!("multipart/form-data; boundary={BOUNDARY}"),
-        )
-        .header(header::COOKIE, format!("gp_session={}", session.cookie))
-        .body(Body::from(body))
-        .unwrap();
-    app.raw(req).await
+    app.post_multipart(
+        session,
+        &format!("/formulations/{formulation}/traces"),
+        body,
+    )
+    .await
 }
 
 async fn new_formulation(app: &TestApp, code: &str) -> i64 {
@@ -101,18 +73,6 @@ fn cell(html: &str, id: &str) -> f64 {
     let rest = &html[at + id.len() + 6..];
     let end = rest.find('<').unwrap();
     rest[..end].trim().replace('−', "-").parse().unwrap()
-}
-
-async fn raw_bytes(app: &TestApp, path: &str) -> (StatusCode, axum::http::HeaderMap, Vec<u8>) {
-    let req = Request::get(path)
-        .header(header::COOKIE, format!("gp_session={}", app.admin.cookie))
-        .body(Body::empty())
-        .unwrap();
-    let r = app.router.clone().oneshot(req).await.unwrap();
-    let status = r.status();
-    let headers = r.headers().clone();
-    let bytes = r.into_body().collect().await.unwrap().to_bytes().to_vec();
-    (status, headers, bytes)
 }
 
 fn sha256_hex(bytes: &[u8]) -> String {
@@ -187,7 +147,7 @@ on_both_backends! {
         assert!(!after.contains("original_bytes") && !after.contains("heat_flow_json"));
 
         // The original, byte for byte, with its name.
-        let (status, headers, bytes) = raw_bytes(&app, &format!("/traces/{tid}/original")).await;
+        let (status, headers, bytes) = app.get_bytes(&format!("/traces/{tid}/original")).await;
         assert_eq!(status, StatusCode::OK);
         assert_eq!(bytes, file);
         let meta = app.store.get_trace(tid).await.unwrap();
@@ -195,7 +155,7 @@ on_both_backends! {
         assert_eq!(meta.byte_count as usize, file.len());
         let disposition = headers.get(header::CONTENT_DISPOSITION).unwrap().to_str().unwrap();
         assert!(disposition.contains("filename*=UTF-8''run%201%20%28%C2%B0C%29.csv"), "{disposition}");
-        let (status, _, api_bytes) = raw_bytes(&app, &format!("/api/v1/traces/{tid}/original")).await;
+        let (status, _, api_bytes) = app.get_bytes(&format!("/api/v1/traces/{tid}/original")).await;
         assert_eq!(status, StatusCode::OK);
         assert_eq!(api_bytes, file);
 

@@ -17,7 +17,7 @@ use crate::domain::runs::*;
 use crate::error::ApiError;
 use crate::runs::{kv_series, load_context, rp_of_run, secondary, GravimetricRow};
 use crate::storage::{ModelCheck, RunFilter};
-use crate::web::runs::form::{form_of, mapping_for, typed_map};
+use crate::web::runs::form::{form_of, read_export as read_with_map, typed_map};
 use crate::web::upload::{read_upload, Upload};
 use crate::{AppError, AppState};
 
@@ -210,8 +210,9 @@ async fn read_export(
     if up.bytes.is_empty() {
         return Ok(Ok(None));
     }
-    let mapping = mapping_for(state, &typed_map(&up), dryer_id).await?;
-    match read_recorded(&up.file_name, up.bytes, &mapping) {
+    let typed = typed_map(&up);
+    let read = read_with_map(state, &up.file_name, up.bytes, &typed, dryer_id).await?;
+    match read {
         Ok(ReadOutcome::Ready { data, mapping }) => Ok(Ok(Some((data, mapping)))),
         Ok(ReadOutcome::NeedsMapping(req)) => {
             let body = serde_json::json!({

@@ -320,6 +320,34 @@ pub fn read_recorded(
     }
 }
 
+/// Reads an export with a dryer's remembered column map. An export whose columns the map
+/// does not name is read as if none were remembered (guessed from its headers, or the
+/// columns asked for): a dryer's export may change, and a map remembered from an older
+/// layout must not refuse every newer file.
+pub fn read_with_remembered_map(
+    file_name: &str,
+    bytes: Vec<u8>,
+    remembered: &[(String, String)],
+) -> Result<ReadOutcome, FieldErrors> {
+    if remembered.is_empty() {
+        return read_recorded(file_name, bytes, &[]);
+    }
+    match read_recorded(file_name, bytes.clone(), remembered) {
+        Err(e) if e.has("mapping") => {
+            let mut outcome = read_recorded(file_name, bytes, &[])?;
+            if let ReadOutcome::Ready { data, .. } = &mut outcome {
+                data.import_notes.push(
+                    "The dryer's remembered column map does not fit this export; its columns \
+                     were chosen from their headers."
+                        .into(),
+                );
+            }
+            Ok(outcome)
+        }
+        other => other,
+    }
+}
+
 /// The run form as typed. Moisture samples are one per line: time (h), shelf temperature
 /// (°C), water (% w/w) and the method, separated by semicolons or tabs (or spaces, with
 /// the method last). Vial weights are one per line: centre or edge, the mass before and

@@ -208,17 +208,22 @@ pub fn typed_map(up: &Upload) -> Vec<(String, String)> {
         .collect()
 }
 
-/// The column map to read an export with: the one typed, else the dryer's remembered
-/// one, else none (the columns are chosen from their headers).
-pub async fn mapping_for(
+/// Reads an export with the column map typed, else the dryer's remembered one (set aside
+/// when the export's columns no longer fit it), else columns chosen from their headers.
+pub async fn read_export(
     state: &AppState,
+    file_name: &str,
+    bytes: Vec<u8>,
     typed: &[(String, String)],
     dryer_id: Option<i64>,
-) -> Result<Vec<(String, String)>, AppError> {
+) -> Result<Result<ReadOutcome, FieldErrors>, AppError> {
     Ok(match (typed.is_empty(), dryer_id) {
-        (false, _) => typed.to_vec(),
-        (true, Some(d)) => state.store.dryer_column_map(d).await?,
-        (true, None) => Vec::new(),
+        (false, _) => read_recorded(file_name, bytes, typed),
+        (true, Some(d)) => {
+            let remembered = state.store.dryer_column_map(d).await?;
+            read_with_remembered_map(file_name, bytes, &remembered)
+        }
+        (true, None) => read_recorded(file_name, bytes, &[]),
     })
 }
 
@@ -237,8 +242,8 @@ async fn read_data(state: &AppState, up: Upload, dryer_id: Option<i64>) -> Resul
         return Ok(Data::None);
     }
     let typed = typed_map(&up);
-    let mapping = mapping_for(state, &typed, dryer_id).await?;
-    Ok(match read_recorded(&up.file_name, up.bytes, &mapping) {
+    let read = read_export(state, &up.file_name, up.bytes, &typed, dryer_id).await?;
+    Ok(match read {
         Ok(ReadOutcome::Ready { data, mapping }) => Data::Read { data, mapping },
         Ok(ReadOutcome::NeedsMapping(req)) => {
             let mut e = FieldErrors::default();
