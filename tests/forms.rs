@@ -354,3 +354,26 @@ on_both_backends! {
         }
     }
 }
+
+on_both_backends! {
+    async fn a_run_with_its_entries_survives_its_edit_form_unchanged(app) {
+        app.load_demo().await;
+        glasspoint::runs::demo::seed_runs(&app.store).await.unwrap();
+        let runs = api_get(&app, "/api/v1/runs").await;
+        for run in runs.as_array().unwrap() {
+            let id = run["id"].as_i64().unwrap();
+            let api = format!("/api/v1/runs/{id}");
+            let before = api_get(&app, &api).await["run"].clone();
+            // The run form is multipart (it carries the data export); sent without a file
+            // it keeps the recorded data.
+            let page = app.get(&format!("/runs/{id}/edit")).await;
+            assert_eq!(page.status, StatusCode::OK, "{}", page.body);
+            let form = post_form_in(&page.body);
+            let body = crate::helpers::multipart_body(None, &form.pairs(), None);
+            let saved = app.post_multipart(&app.admin, &form.action, body).await;
+            assert_eq!(saved.status, StatusCode::SEE_OTHER, "run {id}: {}", saved.body);
+            let after = api_get(&app, &api).await["run"].clone();
+            assert_eq!(without_bookkeeping(after), without_bookkeeping(before), "run {id}");
+        }
+    }
+}
