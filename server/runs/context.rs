@@ -175,6 +175,13 @@ pub async fn load_context(store: &Store, id: i64, margin_c: f64) -> Result<RunCo
 /// The model rerun for the run's load: the cycle as run (at the run's pressure), the
 /// probed formulation, the container's and dryer's current values.
 fn predict(ctx: &RunContext) -> Option<Result<Prediction, String>> {
+    if ctx.run.kind == crate::domain::runs::RunKind::Gravimetric {
+        return Some(Err(
+            "a gravimetric test holds its own shelf temperature and stops while ice is left, \
+             so it is not read against the cycle's prediction"
+                .into(),
+        ));
+    }
     let (base, derived, resistance, formulation) = (
         ctx.base.as_ref()?,
         ctx.derived.as_ref()?,
