@@ -21,19 +21,13 @@ pub struct Choice {
     pub label: String,
 }
 
-/// The roles a column may take, for the column map's selects.
-pub const ROLES: &[(&str, &str)] = &[
-    ("ignore", "not used"),
-    ("time", "time"),
-    ("shelf", "shelf (inlet) temperature"),
-    ("probe:centre", "product probe, centre vial"),
-    ("probe:edge", "product probe, edge vial"),
-    ("probe:front", "product probe, front row"),
-    ("probe:back", "product probe, back row"),
-    ("manometer", "capacitance manometer"),
-    ("pirani", "Pirani gauge"),
-    ("condenser", "condenser temperature"),
-];
+/// The roles a column may take, for the column map's selects: (code, words).
+fn roles() -> Vec<(String, &'static str)> {
+    glasspoint_import::RunRole::ALL
+        .iter()
+        .map(|r| (r.to_string(), r.label()))
+        .collect()
+}
 
 /// The column map the page asks for.
 pub struct MapView {
@@ -78,7 +72,7 @@ struct FormPage {
     formulations: Vec<Choice>,
     kinds: &'static [RunKind],
     cakes: &'static [CakeAppearance],
-    roles: &'static [(&'static str, &'static str)],
+    roles: Vec<(String, &'static str)>,
     max_mib: usize,
     needs_reason: bool,
 }
@@ -135,7 +129,7 @@ async fn form_page(
             .collect(),
         kinds: RunKind::ALL,
         cakes: CakeAppearance::ALL,
-        roles: ROLES,
+        roles: roles(),
         max_mib: MAX_RUN_FILE_BYTES / (1024 * 1024),
         needs_reason,
     };
