@@ -22,7 +22,9 @@ use crate::web::upload::{read_upload, Upload};
 use crate::{AppError, AppState};
 
 pub fn router() -> Router<AppState> {
-    let upload = DefaultBodyLimit::max(MAX_RUN_FILE_BYTES + 64 * 1024);
+    // The same limit the app-wide layer allows these routes (`web::upload_limit`).
+    let upload =
+        DefaultBodyLimit::max(crate::web::upload_limit("/runs").unwrap_or(MAX_RUN_FILE_BYTES));
     Router::new()
         .route("/runs", get(list_runs).post(create_run).layer(upload))
         .route("/runs/{id}", get(get_run))

@@ -60,31 +60,28 @@ pub fn router() -> Router<AppState> {
         .fallback(|| async { AppError::NotFound("This page".into()) })
 }
 
-/// Whether `path` takes a file upload (a DSC trace on `/formulations/{id}/traces`, a run's
-/// data export on `/runs`, `/runs/{id}` and `/runs/{id}/data`; also under `/api/v1`):
-/// those bodies may be as large as the file limits.
-pub fn is_upload_path(path: &str) -> bool {
+/// The file limit of a route that takes an upload: a DSC trace on
+/// `/formulations/{id}/traces`, a run's data export on `/runs`, `/runs/{id}` and
+/// `/runs/{id}/data` (each also under `/api/v1`); `None` elsewhere.
+pub fn upload_limit(path: &str) -> Option<usize> {
     let bare = path.strip_prefix("/api/v1").unwrap_or(path);
     let parts: Vec<&str> = bare.split('/').collect();
+    // The run form's other fields come with its file: room for them above the file.
+    let run_form = crate::domain::runs::MAX_RUN_FILE_BYTES + 64 * 1024;
     match parts.as_slice() {
-        ["", "formulations", id, "traces"] => !id.is_empty(),
-        // A run's form carries its data export: recording, changing, replacing the data.
-        ["", "runs"] => true,
-        ["", "runs", id] | ["", "runs", id, "data"] => !id.is_empty(),
-        _ => false,
+        ["", "formulations", id, "traces"] if !id.is_empty() => {
+            Some(crate::domain::traces::MAX_TRACE_BYTES)
+        }
+        ["", "runs"] => Some(run_form),
+        ["", "runs", id] | ["", "runs", id, "data"] if !id.is_empty() => Some(run_form),
+        _ => None,
     }
 }
 
-/// The body limit of a request to `path`: the configured one, or the larger upload limit
-/// on the trace upload routes.
+/// The body limit of a request to `path`: the configured one, or the larger file limit
+/// of an upload route.
 pub fn body_limit_for(path: &str, configured: usize) -> usize {
-    if is_upload_path(path) {
-        configured
-            .max(crate::domain::traces::MAX_TRACE_BYTES)
-            .max(crate::domain::runs::MAX_RUN_FILE_BYTES + 64 * 1024)
-    } else {
-        configured
-    }
+    upload_limit(path).map_or(configured, |l| configured.max(l))
 }
 
 /// The app-wide body limit (in place of `RequestBodyLimitLayer`, which cannot be raised
@@ -288,4 +285,36 @@ pub fn parse_version(raw: &str) -> Result<i64, AppError> {
             "the form is missing its record version; reload the page",
         )
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::upload_limit;
+    use crate::domain::{runs::MAX_RUN_FILE_BYTES, traces::MAX_TRACE_BYTES};
+
+    #[test]
+    fn upload_routes_have_their_file_limits_and_others_none() {
+        assert_eq!(
+            upload_limit("/formulations/3/traces"),
+            Some(MAX_TRACE_BYTES)
+        );
+        assert_eq!(
+            upload_limit("/api/v1/formulations/3/traces"),
+            Some(MAX_TRACE_BYTES)
+        );
+        for path in ["/runs", "/runs/4", "/api/v1/runs", "/api/v1/runs/4/data"] {
+            assert!(
+                upload_limit(path).is_some_and(|l| l > MAX_RUN_FILE_BYTES),
+                "{path}"
+            );
+        }
+        for path in [
+            "/formulations",
+            "/runs/4/adopt",
+            "/runs/4/edit",
+            "/api/v1/runs/4/original",
+        ] {
+            assert_eq!(upload_limit(path), None, "{path}");
+        }
+    }
 }

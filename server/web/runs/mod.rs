@@ -19,7 +19,9 @@ use crate::storage::RunFilter;
 use crate::{AppError, AppState};
 
 pub fn router() -> Router<AppState> {
-    let upload = DefaultBodyLimit::max(MAX_RUN_FILE_BYTES + 64 * 1024);
+    // The same limit the app-wide layer allows these routes (`web::upload_limit`).
+    let upload =
+        DefaultBodyLimit::max(crate::web::upload_limit("/runs").unwrap_or(MAX_RUN_FILE_BYTES));
     Router::new()
         .route("/runs", get(list).post(form::create).layer(upload))
         .route("/runs/new", get(form::new_form))
