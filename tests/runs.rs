@@ -187,7 +187,20 @@ fn run_id(location: &str) -> i64 {
 
 /// Posts a multipart body to the API as `session` (cookie and CSRF header).
 async fn api_multipart(app: &TestApp, session: &TestSession, path: &str, body: Vec<u8>) -> Reply {
-    let req = Request::post(path)
+    api_multipart_as(app, session, "POST", path, body).await
+}
+
+/// Sends a multipart body to the API with `method` as `session`.
+async fn api_multipart_as(
+    app: &TestApp,
+    session: &TestSession,
+    method: &str,
+    path: &str,
+    body: Vec<u8>,
+) -> Reply {
+    let req = Request::builder()
+        .method(method)
+        .uri(path)
         .header(
             header::CONTENT_TYPE,
             format!("multipart/form-data; boundary={MULTIPART_BOUNDARY}"),
@@ -470,6 +483,21 @@ on_both_backends! {
         let refused = app.post_multipart(&reader, "/runs", body).await;
         assert_eq!(refused.status, StatusCode::FORBIDDEN, "{}", refused.body);
         assert_eq!(api_run_count(&app).await, runs, "the reader stored nothing");
+
+        // A change through the API names the version it saw; a stale one is refused.
+        let mut changed = fields.clone();
+        set(&mut changed, "notes", "Door gasket replaced before this run.");
+        set(&mut changed, "version", "1");
+        let body = multipart_body(None, &changed, None);
+        let put = api_multipart_as(&app, &session, "PUT", &format!("/api/v1/runs/{id}"), body).await;
+        assert_eq!(put.status, StatusCode::OK, "{}", put.body);
+        let j = put.json();
+        assert_eq!(j["run"]["notes"], "Door gasket replaced before this run.");
+        assert_eq!(j["run"]["version"], 2);
+        assert_eq!(j["run"]["byte_count"].as_u64(), Some(csv.len() as u64), "the data is kept");
+        let body = multipart_body(None, &changed, None);
+        let stale = api_multipart_as(&app, &session, "PUT", &format!("/api/v1/runs/{id}"), body).await;
+        assert_eq!(stale.status, StatusCode::CONFLICT, "{}", stale.body);
     }
 }
 

@@ -73,6 +73,7 @@ pub fn router() -> Router<AppState> {
         runs::list_runs,
         runs::get_run,
         runs::create_run,
+        runs::update_run,
         runs::replace_data,
         runs::get_original,
     ),

@@ -27,7 +27,7 @@ pub fn router() -> Router<AppState> {
         DefaultBodyLimit::max(crate::web::upload_limit("/runs").unwrap_or(MAX_RUN_FILE_BYTES));
     Router::new()
         .route("/runs", get(list_runs).post(create_run).layer(upload))
-        .route("/runs/{id}", get(get_run))
+        .route("/runs/{id}", get(get_run).put(update_run).layer(upload))
         .route("/runs/{id}/data", post(replace_data).layer(upload))
         .route("/runs/{id}/original", get(get_original))
 }
@@ -257,6 +257,48 @@ pub async fn create_run(
         state.store.remember_column_map(&actor, dryer, map).await?;
     }
     Ok((StatusCode::CREATED, Json(report(&state, id).await?)).into_response())
+}
+
+#[utoipa::path(put, path = "/api/v1/runs/{id}",
+    params(("id" = i64, Path, description = "run id")),
+    request_body(content = String, description = "multipart/form-data with every field of the run form (as for POST /api/v1/runs), `version` (the run's version seen), `reason` (needed once the run is reviewed) and optionally a new export as `file`: one change", content_type = "multipart/form-data"),
+    responses((status = 200, description = "the run as changed, with its reading", body = Object),
+        (status = 409, body = super::ErrorBody),
+        (status = 422, body = super::ErrorBody)))]
+pub async fn update_run(
+    State(state): State<AppState>,
+    actor: Actor,
+    Path(id): Path<i64>,
+    req: Request,
+) -> Result<Response, ApiError> {
+    state.store.get_run(id).await?;
+    let up = read_upload(req).await?;
+    let form = form_of(&up);
+    let version: i64 = form
+        .version
+        .trim()
+        .parse()
+        .map_err(|_| AppError::input("version", "give the run's version you saw"))?;
+    let draft = form.parse().map_err(AppError::Fields)?;
+    let read = match read_export(&state, up, draft.dryer_id).await? {
+        Ok(r) => r,
+        Err(response) => return Ok(response),
+    };
+    state
+        .store
+        .update_run(
+            &actor,
+            id,
+            version,
+            &draft,
+            read.as_ref().map(|r| &r.0),
+            &form.reason,
+        )
+        .await?;
+    if let (Some(dryer), Some((_, map))) = (draft.dryer_id, &read) {
+        state.store.remember_column_map(&actor, dryer, map).await?;
+    }
+    Ok(Json(report(&state, id).await?).into_response())
 }
 
 #[utoipa::path(post, path = "/api/v1/runs/{id}/data",

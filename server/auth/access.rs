@@ -181,6 +181,7 @@ pub const RULES: &[Rule] = &[
     rule("GET", "/api/v1/runs", Least(Reader)),
     rule("POST", "/api/v1/runs", Least(Scientist)),
     rule("GET", "/api/v1/runs/{id}", Least(Reader)),
+    rule("PUT", "/api/v1/runs/{id}", Least(Scientist)),
     rule("POST", "/api/v1/runs/{id}/data", Least(Scientist)),
     rule("GET", "/api/v1/runs/{id}/original", Least(Reader)),
     rule("GET", "/api/v1/measurements", Least(Reader)),
