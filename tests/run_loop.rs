@@ -105,6 +105,9 @@ on_both_backends! {
         assert_eq!(adopted.status, 303, "{}", adopted.body);
 
         let after = app.get(&format!("/api/v1/runs/{dev_id}")).await.json();
+        assert_eq!(after["resistance_runs"], serde_json::json!([dev_id]), "the fit names its runs");
+        let history = app.get(&format!("/records/formulation/{formulation_id}/history")).await;
+        assert!(history.body.contains("Rp from the platform run"));
         let (error_after, rms_after) = last_check(&after);
         assert!(error_after < error_before / 3.0, "{error_before} h → {error_after} h");
         assert!(rms_after < rms_before, "{rms_before} °C → {rms_after} °C");

@@ -8,14 +8,14 @@ use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use axum::{Json, Router};
 use glasspoint_science::runs::{
-    Excursion, KvFit, Phase, PressureEndPoint, ProbeArrival, RpResult, SecondaryKinetics,
+    Excursion, KvFit, Phase, PressureEndPoint, ProbeArrival, RpFit, RpResult, SecondaryKinetics,
 };
 
 use super::extract::{Path, Query};
 use crate::auth::Actor;
 use crate::domain::runs::*;
 use crate::error::ApiError;
-use crate::runs::{kv_series, load_context, rp_of_run, secondary, GravimetricRow};
+use crate::runs::{kv_series, load_context, rp_of_run, rp_series, secondary, GravimetricRow};
 use crate::storage::{ModelCheck, RunFilter};
 use crate::web::runs::form::{form_of, read_export as read_with_map, typed_map};
 use crate::web::upload::{read_upload, Upload};
@@ -113,6 +113,9 @@ pub struct RunReport {
     pub edge_heat_factor: Option<f64>,
     pub resistance: Option<RpResult>,
     pub resistance_problem: Option<String>,
+    /// Rp of the probed formulation fitted over every cycle run probing it.
+    pub resistance_across_runs: Option<RpFit>,
+    pub resistance_runs: Vec<i64>,
     pub secondary_drying: Option<SecondaryKinetics>,
     pub secondary_drying_problem: Option<String>,
     pub caution: &'static str,
@@ -160,6 +163,12 @@ async fn report(state: &AppState, id: i64) -> Result<RunReport, AppError> {
     } else {
         None
     });
+    let across = match (&ctx.run.kind, &ctx.formulation) {
+        (RunKind::Development, Some(f)) => {
+            Some(rp_series(&state.store, f.id, state.config.margin_c).await?)
+        }
+        _ => None,
+    };
     let (secondary_drying, secondary_drying_problem) = split(secondary(
         &ctx.run.moisture,
         None,
@@ -183,6 +192,11 @@ async fn report(state: &AppState, id: i64) -> Result<RunReport, AppError> {
         edge_heat_factor,
         resistance,
         resistance_problem,
+        resistance_across_runs: across
+            .as_ref()
+            .and_then(|a| a.fit.clone())
+            .and_then(Result::ok),
+        resistance_runs: across.map(|a| a.run_ids()).unwrap_or_default(),
         secondary_drying,
         secondary_drying_problem,
         caution: crate::runs::CAUTION,

@@ -3,8 +3,9 @@
 //! the dried-layer resistance from a run's product temperature.
 
 use glasspoint_science::runs::{
-    edge_factor, fit_kv, kv_from_gravimetric, rp_from_product_temperature, GravimetricInput,
-    GravimetricKv, KvFit, KvPoint, ProbePosition, RpInput, RpResult, RunSeries,
+    edge_factor, fit_kv, fit_rp, kv_from_gravimetric, rp_from_product_temperature,
+    GravimetricInput, GravimetricKv, KvFit, KvPoint, ProbePosition, RpFit, RpInput, RpPoint,
+    RpResult, RunSeries,
 };
 
 use super::context::RunContext;
@@ -250,6 +251,65 @@ pub async fn kv_series(
         edge_factor,
         dryer_id,
     })
+}
+
+/// The dried-layer resistance of a formulation from every cycle run probing it (each run's
+/// points with its own container's Kv, fill and pressure), fitted together.
+pub struct RpSeries {
+    /// Each run with its own reading: (run id, name, points or why none).
+    pub runs: Vec<(i64, String, Result<RpResult, String>)>,
+    pub fit: Option<Result<RpFit, String>>,
+}
+
+impl RpSeries {
+    /// The runs whose points the fit rests on.
+    pub fn run_ids(&self) -> Vec<i64> {
+        self.runs
+            .iter()
+            .filter(|(_, _, r)| r.is_ok())
+            .map(|(id, _, _)| *id)
+            .collect()
+    }
+
+    pub fn point_count(&self) -> usize {
+        self.runs
+            .iter()
+            .filter_map(|(_, _, r)| r.as_ref().ok())
+            .map(|r| r.points.len())
+            .sum()
+    }
+}
+
+pub async fn rp_series(
+    store: &Store,
+    formulation_id: i64,
+    margin_c: f64,
+) -> Result<RpSeries, AppError> {
+    let runs = store
+        .list_runs(RunFilter {
+            formulation_id: Some(formulation_id),
+            kind: Some(RunKind::Development),
+            ..Default::default()
+        })
+        .await?;
+    let mut out = Vec::new();
+    for run in runs.into_iter().filter(|r| {
+        r.has_data()
+            && r.probed_formulation_id == Some(formulation_id)
+            && r.review_state != crate::domain::ReviewState::Rejected
+    }) {
+        let ctx = super::context::load_reading(store, run.id, margin_c).await?;
+        if let Some(rp) = rp_of_run(&ctx) {
+            out.push((run.id, run.name, rp));
+        }
+    }
+    let points: Vec<RpPoint> = out
+        .iter()
+        .filter_map(|(_, _, r)| r.as_ref().ok())
+        .flat_map(|r| r.points.iter().copied())
+        .collect();
+    let fit = (!points.is_empty()).then(|| fit_rp(&points).map_err(words));
+    Ok(RpSeries { runs: out, fit })
 }
 
 /// The dried-layer resistance from a run's centre probes during primary drying, with the

@@ -119,6 +119,13 @@ pub struct RunContext {
 
 /// Loads a run and reads it against its formulation's limit and the model.
 pub async fn load_context(store: &Store, id: i64, margin_c: f64) -> Result<RunContext, AppError> {
+    let mut ctx = load_reading(store, id, margin_c).await?;
+    ctx.prediction = predict(&ctx);
+    Ok(ctx)
+}
+
+/// Loads a run and reads its series, without rerunning the model for it.
+pub async fn load_reading(store: &Store, id: i64, margin_c: f64) -> Result<RunContext, AppError> {
     let run = store.get_run(id).await?;
     let cycle = store.get_cycle(run.cycle_id).await?;
     let container = store.get_container(run.container_id).await?;
@@ -154,7 +161,7 @@ pub async fn load_context(store: &Store, id: i64, margin_c: f64) -> Result<RunCo
     let pressure_mtorr = run
         .chamber_pressure_mtorr
         .unwrap_or(cycle.program.primary.chamber_pressure_mtorr);
-    let mut ctx = RunContext {
+    Ok(RunContext {
         run,
         cycle,
         container,
@@ -167,9 +174,7 @@ pub async fn load_context(store: &Store, id: i64, margin_c: f64) -> Result<RunCo
         reading,
         pressure_mtorr,
         prediction: None,
-    };
-    ctx.prediction = predict(&ctx);
-    Ok(ctx)
+    })
 }
 
 /// The model rerun for the run's load: the cycle as run (at the run's pressure), the

@@ -9,8 +9,10 @@ mod calibration;
 mod context;
 pub mod demo;
 
-pub use calibration::{gravimetric, kv_series, rp_of_run, GravimetricRow, KvSeries, KvSeriesRow};
-pub use context::{load_context, PredictionSummary, RunContext};
+pub use calibration::{
+    gravimetric, kv_series, rp_of_run, rp_series, GravimetricRow, KvSeries, KvSeriesRow, RpSeries,
+};
+pub use context::{load_context, load_reading, PredictionSummary, RunContext};
 
 use glasspoint_science::runs::{
     comparative_pressure, excursions, find_phases, probe_arrivals, secondary_kinetics, Excursion,

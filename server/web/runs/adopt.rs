@@ -5,7 +5,6 @@
 
 use axum::extract::State;
 use axum::response::Response;
-use glasspoint_science::drying::Resistance;
 use serde_json::json;
 
 use super::super::extract::{Form, Path};
@@ -14,7 +13,7 @@ use super::super::{render, see_other};
 use super::detail::{build, PageQuery};
 use crate::auth::Actor;
 use crate::domain::{FieldError, FieldErrors};
-use crate::runs::{kv_series, load_context, rp_of_run};
+use crate::runs::{kv_series, load_context, rp_series};
 use crate::storage::Adoption;
 use crate::web::records::confirm_password;
 use crate::{AppError, AppState};
@@ -144,24 +143,25 @@ pub async fn adopt_one(
                 .formulation
                 .as_ref()
                 .ok_or_else(|| unavailable("Rp (no probed formulation)"))?;
-            let Some(Ok(rp)) = rp_of_run(&ctx) else {
+            let series = rp_series(&state.store, f.id, state.config.margin_c).await?;
+            let Some(Ok(fit)) = &series.fit else {
                 return Err(unavailable("Rp"));
             };
-            let r = Resistance {
-                r0_cm2_torr_h_g: rp.fit.r0_cm2_torr_h_g,
-                a1_cm_torr_h_g: rp.fit.a1_cm_torr_h_g,
-                a2_per_cm: rp.fit.a2_per_cm,
-            };
-            let runs = [id];
+            let r = fit.resistance();
+            let runs = series.run_ids();
             let adoption = Adoption {
                 run_ids: &runs,
-                result: json!({ "fit": rp.fit, "points": rp.points }),
+                result: json!({ "fit": fit, "runs": series.runs.iter().map(|(id, name, r)| json!({
+                    "run_id": id, "name": name,
+                    "points": r.as_ref().map(|r| r.points.len()).unwrap_or(0),
+                    "problem": r.as_ref().err(),
+                })).collect::<Vec<_>>() }),
                 source: format!(
-                    "Measured: product temperature of run {id} ({}), heat and mass balance turned around, \
-                     fit over {} points, rms residual {:.3} cm²·Torr·h/g.",
-                    ctx.run.name,
-                    rp.points.len(),
-                    rp.fit.rms_cm2_torr_h_g
+                    "Measured: product temperature of runs {} (centre probes), heat and mass balance \
+                     turned around, fit over {} points, rms residual {:.3} cm²·Torr·h/g.",
+                    id_list(&runs),
+                    series.point_count(),
+                    fit.rms_cm2_torr_h_g
                 ),
                 reason: &form.reason,
                 expected_version,

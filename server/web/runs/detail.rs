@@ -65,6 +65,8 @@ pub struct DetailPage {
     pub kv: Option<KvSeries>,
     pub this_grav: Vec<crate::runs::GravimetricRow>,
     pub rp: Option<Result<RpResult, String>>,
+    /// Rp of the probed formulation from every cycle run probing it.
+    pub rp_all: Option<crate::runs::RpSeries>,
     pub secondary: Option<Result<SecondaryKinetics, String>>,
     pub query: PageQuery,
     pub target_words: String,
@@ -128,13 +130,15 @@ pub async fn build(
         .and_then(|k| k.rows.iter().find(|r| r.run_id == id))
         .map(|r| r.rows.iter().map(Clone::clone).collect())
         .unwrap_or_default();
-    let rp = if ctx.run.kind == RunKind::Development {
-        runs::rp_of_run(&ctx)
-    } else {
-        None
+    let (rp, rp_all) = match (&ctx.run.kind, &ctx.formulation) {
+        (RunKind::Development, Some(f)) => (
+            runs::rp_of_run(&ctx),
+            Some(runs::rp_series(&state.store, f.id, state.config.margin_c).await?),
+        ),
+        _ => (None, None),
     };
     let (secondary, target_words) = secondary_of(state, &ctx, &query).await?;
-    let offers = offers(&ctx, kv.as_ref(), rp.as_ref());
+    let offers = offers(&ctx, kv.as_ref(), rp_all.as_ref());
     let mut calibrations = state
         .store
         .calibrations_of(Entity::Container, ctx.container.id)
@@ -180,6 +184,7 @@ pub async fn build(
         kv,
         this_grav,
         rp,
+        rp_all,
         secondary,
         query,
         target_words,
@@ -235,7 +240,7 @@ async fn secondary_of(
 fn offers(
     ctx: &RunContext,
     kv: Option<&KvSeries>,
-    rp: Option<&Result<RpResult, String>>,
+    rp: Option<&crate::runs::RpSeries>,
 ) -> Vec<Offer> {
     let mut out = Vec::new();
     if let Some(Ok(fit)) = kv.and_then(|k| k.fit.as_ref()) {
@@ -259,15 +264,18 @@ fn offers(
             values: format!("{f:.3}"),
         });
     }
-    if let (Some(Ok(r)), Some(f)) = (rp, &ctx.formulation) {
+    if let (Some((Some(Ok(fit)), n)), Some(f)) = (
+        rp.map(|r| (r.fit.as_ref(), r.run_ids().len())),
+        &ctx.formulation,
+    ) {
         out.push(Offer {
             kind: "resistance",
-            title: "Dry-layer resistance from the centre probes".into(),
+            title: format!("Dry-layer resistance from the centre probes of {n} run(s)"),
             target: format!("formulation {}", f.code),
             target_version: f.version,
             values: format!(
                 "R0 {:.3} cm²·Torr·h/g, A1 {:.3} cm·Torr·h/g, A2 {:.3} 1/cm",
-                r.fit.r0_cm2_torr_h_g, r.fit.a1_cm_torr_h_g, r.fit.a2_per_cm
+                fit.r0_cm2_torr_h_g, fit.a1_cm_torr_h_g, fit.a2_per_cm
             ),
         });
     }
