@@ -403,6 +403,10 @@ on_both_backends! {
         assert_eq!(series.probes.len(), truth.series.probes.len());
         let dryer: i64 = r.dryer.parse().unwrap();
         assert_eq!(app.store.dryer_column_map(dryer).await.unwrap(), map, "the dryer remembers the map");
+        let page = app.get(&format!("/dryers/{dryer}")).await;
+        assert!(page.body.contains("Chamber pressure, Pirani gauge"), "the dryer page shows the remembered columns");
+        let history = app.get(&format!("/records/dryer/{dryer}/history")).await;
+        assert!(history.body.contains("column_map"), "remembering the map is a change of the dryer, in its history");
 
         // The next export with the same headers needs no map, on the page and the API.
         set(&mut fields, "name", "Two gauges again");

@@ -55,11 +55,26 @@ async fn list(State(state): State<AppState>) -> Result<Response, AppError> {
 #[template(path = "dryers/detail.html")]
 struct DetailPage {
     d: Dryer,
+    /// The export columns remembered from its runs: (header, what it holds).
+    column_map: Vec<(String, String)>,
 }
 
 async fn detail(State(state): State<AppState>, Path(id): Path<i64>) -> Result<Response, AppError> {
     let d = state.store.get_dryer(id).await?;
-    Ok(render(DetailPage { d }))
+    let column_map = state
+        .store
+        .dryer_column_map(id)
+        .await?
+        .into_iter()
+        .map(|(header, role)| {
+            let words = role
+                .parse::<glasspoint_import::RunRole>()
+                .map(|r| r.label().to_string())
+                .unwrap_or(role);
+            (header, words)
+        })
+        .collect();
+    Ok(render(DetailPage { d, column_map }))
 }
 
 #[derive(Template)]
