@@ -102,7 +102,6 @@ pub async fn build(
             .map(|(_, c)| c.clone())
             .unwrap_or_else(|| f.to_string())
     };
-    let mut checks = Vec::new();
     let prediction = match &ctx.prediction {
         Some(Ok(p)) => {
             let measured = ctx
@@ -119,7 +118,7 @@ pub async fn build(
         Some(Err(e)) => Some(Err(e.clone())),
         None => None,
     };
-    checks.extend(state.store.model_checks_of(id).await?);
+    let checks = state.store.model_checks_of(id).await?;
     let kv = if ctx.run.kind == RunKind::Gravimetric {
         Some(runs::kv_series(&state.store, &ctx.container, ctx.run.dryer_id).await?)
     } else {
@@ -128,7 +127,7 @@ pub async fn build(
     let this_grav = kv
         .as_ref()
         .and_then(|k| k.rows.iter().find(|r| r.run_id == id))
-        .map(|r| r.rows.iter().map(Clone::clone).collect())
+        .map(|r| r.rows.clone())
         .unwrap_or_default();
     let (rp, rp_all) = match (&ctx.run.kind, &ctx.formulation) {
         (RunKind::Development, Some(f)) => (
