@@ -18,7 +18,6 @@ use crate::units::{c_to_k, k_to_c};
 pub const K_MIN: f64 = 1e-3;
 pub const K_MAX: f64 = 1e3;
 const SCAN_STEPS: usize = 240;
-const GOLDEN_ITERATIONS: usize = 200;
 
 const CAUTION: &str = "A fit to the points given; it supports qualified judgement and says \
     nothing outside the range of compositions measured.";
@@ -136,33 +135,6 @@ fn checked(input: &GordonTaylorFitInput) -> Result<Data, InputError> {
     })
 }
 
-/// Minimise `f` over [a, b] by golden-section search (f assumed unimodal there).
-fn golden_section(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> f64 {
-    let inv_phi = (5f64.sqrt() - 1.0) / 2.0;
-    let mut c = b - inv_phi * (b - a);
-    let mut d = a + inv_phi * (b - a);
-    let (mut fc, mut fd) = (f(c), f(d));
-    for _ in 0..GOLDEN_ITERATIONS {
-        if (b - a).abs() < 1e-12 {
-            break;
-        }
-        if fc < fd {
-            b = d;
-            d = c;
-            fd = fc;
-            c = b - inv_phi * (b - a);
-            fc = f(c);
-        } else {
-            a = c;
-            c = d;
-            fc = fd;
-            d = a + inv_phi * (b - a);
-            fd = f(d);
-        }
-    }
-    (a + b) / 2.0
-}
-
 /// Fit Gordon–Taylor k to measured points (module docs for the method). Needs at least two
 /// points, one of them a true mixture; a standard error needs at least three.
 pub fn fit_gordon_taylor(input: &GordonTaylorFitInput) -> Result<GordonTaylorFit, InputError> {
@@ -174,7 +146,7 @@ pub fn fit_gordon_taylor(input: &GordonTaylorFitInput) -> Result<GordonTaylorFit
     let best = (0..=SCAN_STEPS)
         .min_by(|&i, &j| objective(grid(i)).total_cmp(&objective(grid(j))))
         .unwrap_or(0);
-    let u = golden_section(
+    let u = crate::roots::golden_section_min(
         objective,
         grid(best.saturating_sub(1)),
         grid((best + 1).min(SCAN_STEPS)),

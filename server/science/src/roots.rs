@@ -1,4 +1,4 @@
-//! Bracketed root finding: Brent's method (inverse quadratic interpolation and secant steps,
+//! Bracketed root finding and minimisation. Roots: Brent's method (inverse quadratic interpolation and secant steps,
 //! falling back to bisection), after Brent (1973), *Algorithms for Minimization without
 //! Derivatives*, ch. 4. A root is always kept inside a sign-changing bracket, so the
 //! method cannot wander off, and it converges superlinearly on smooth functions.
@@ -185,6 +185,42 @@ pub fn newton_in_bracket(
     })
 }
 
+/// Steps of [`golden_section_min`] at the most (the bracket shrinks by 0.618 each step, so
+/// far fewer are needed for any bracket of finite numbers).
+const GOLDEN_ITERATIONS: usize = 200;
+
+/// The minimum of a unimodal `f` on `[a, b]` by golden-section search (Kiefer 1953; any
+/// numerical-methods text). The ends are compared too: the minimum may sit on one.
+pub fn golden_section_min(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> f64 {
+    let r = (5f64.sqrt() - 1.0) / 2.0;
+    let mut c = b - r * (b - a);
+    let mut d = a + r * (b - a);
+    let (mut fc, mut fd) = (f(c), f(d));
+    for _ in 0..GOLDEN_ITERATIONS {
+        if (b - a).abs() <= 1e-15 * (a.abs() + b.abs()).max(f64::MIN_POSITIVE) {
+            break;
+        }
+        if fc < fd {
+            b = d;
+            d = c;
+            fd = fc;
+            c = b - r * (b - a);
+            fc = f(c);
+        } else {
+            a = c;
+            c = d;
+            fc = fd;
+            d = a + r * (b - a);
+            fd = f(d);
+        }
+    }
+    let mid = 0.5 * (a + b);
+    [a, mid, b]
+        .into_iter()
+        .min_by(|x, y| f(*x).total_cmp(&f(*y)))
+        .unwrap_or(mid)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -263,5 +299,15 @@ mod tests {
     fn newton_in_a_bracket_without_a_root_is_refused() {
         let err = newton_in_bracket(|x| (x * x + 1.0, 2.0 * x), 0.0, 2.0, 1.0, false, 1e-9);
         assert!(matches!(err, Err(RootError::NoBracket { .. })), "{err:?}");
+    }
+
+    #[test]
+    fn golden_section_finds_a_parabola_minimum_and_a_minimum_on_an_end() {
+        // Analytic (common practice, no source): (x − 0.3)² on [0, 1] has its minimum at 0.3;
+        // x on [2, 5] at its left end.
+        let x = super::golden_section_min(|x| (x - 0.3) * (x - 0.3), 0.0, 1.0);
+        assert!((x - 0.3).abs() < 1e-7, "{x}");
+        let e = super::golden_section_min(|x| x, 2.0, 5.0);
+        assert!((e - 2.0).abs() < 1e-9, "{e}");
     }
 }

@@ -8,7 +8,6 @@
 const SCAN_LOW: f64 = 1e-4;
 const SCAN_HIGH: f64 = 1e4;
 const SCAN_STEPS: usize = 400;
-const GOLDEN_ITERATIONS: usize = 200;
 
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct SaturatingFit {
@@ -69,7 +68,7 @@ pub(crate) fn fit(xs: &[f64], ys: &[f64]) -> Option<SaturatingFit> {
         .map(|(i, _)| i)?;
     let lo = grid[best.saturating_sub(1)];
     let hi = grid[(best + 1).min(grid.len() - 1)];
-    let c2 = golden(ss, lo, hi).min(grid[grid.len() - 1]);
+    let c2 = crate::roots::golden_section_min(ss, lo, hi).min(grid[grid.len() - 1]);
     let (c0, c1, _) = at_c2(xs, ys, c2)?;
     let model = |x: f64| c0 + c1 * x / (1.0 + c2 * x);
     let residuals: Vec<f64> = xs.iter().zip(ys).map(|(&x, &y)| y - model(x)).collect();
@@ -98,37 +97,6 @@ pub(crate) fn fit(xs: &[f64], ys: &[f64]) -> Option<SaturatingFit> {
         standard_errors,
         at_upper_bound: best + 1 >= grid.len(),
     })
-}
-
-fn golden(f: impl Fn(f64) -> f64, mut a: f64, mut b: f64) -> f64 {
-    let r = (5f64.sqrt() - 1.0) / 2.0;
-    let mut c = b - r * (b - a);
-    let mut d = a + r * (b - a);
-    let (mut fc, mut fd) = (f(c), f(d));
-    for _ in 0..GOLDEN_ITERATIONS {
-        if (b - a).abs() <= 1e-15 * (a.abs() + b.abs()) {
-            break;
-        }
-        if fc < fd {
-            b = d;
-            d = c;
-            fd = fc;
-            c = b - r * (b - a);
-            fc = f(c);
-        } else {
-            a = c;
-            c = d;
-            fc = fd;
-            d = a + r * (b - a);
-            fd = f(d);
-        }
-    }
-    let mid = 0.5 * (a + b);
-    // The ends of the bracket may be better than its inside when the minimum sits on one.
-    [a, mid, b]
-        .into_iter()
-        .min_by(|x, y| f(*x).total_cmp(&f(*y)))
-        .unwrap_or(mid)
 }
 
 /// The diagonal of (JᵀJ)⁻¹ for a three-column Jacobian; `None` when JᵀJ is singular.

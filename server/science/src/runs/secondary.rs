@@ -19,7 +19,6 @@ pub const SAME_TEMPERATURE_C: f64 = 1.0;
 /// The gas constant, J/(mol·K).
 const GAS_CONSTANT: f64 = 8.314_462_618;
 const SCAN_STEPS: usize = 400;
-const GOLDEN_ITERATIONS: usize = 200;
 
 const CAUTION: &str = "First-order desorption fitted to the samples given; it supports \
     qualified judgement. Thief samples and the vials they stand for may differ, the \
@@ -255,36 +254,11 @@ fn best_equilibrium(groups: &[Group], w_min: f64) -> f64 {
         .enumerate()
         .min_by(|a, b| total_ss(groups, *a.1).total_cmp(&total_ss(groups, *b.1)))
         .map_or(0, |(i, _)| i);
-    let (mut a, mut b) = (
+    crate::roots::golden_section_min(
+        |x| total_ss(groups, x),
         grid[best.saturating_sub(1)],
         grid[(best + 1).min(SCAN_STEPS)],
-    );
-    let r = (5f64.sqrt() - 1.0) / 2.0;
-    let f = |x: f64| total_ss(groups, x);
-    let (mut c, mut d) = (b - r * (b - a), a + r * (b - a));
-    let (mut fc, mut fd) = (f(c), f(d));
-    for _ in 0..GOLDEN_ITERATIONS {
-        if b - a <= 1e-15 * b.abs().max(1e-300) {
-            break;
-        }
-        if fc < fd {
-            b = d;
-            d = c;
-            fd = fc;
-            c = b - r * (b - a);
-            fc = f(c);
-        } else {
-            a = c;
-            c = d;
-            fc = fd;
-            d = a + r * (b - a);
-            fd = f(d);
-        }
-    }
-    [a, 0.5 * (a + b), b]
-        .into_iter()
-        .min_by(|x, y| f(*x).total_cmp(&f(*y)))
-        .unwrap_or(a)
+    )
 }
 
 /// (Ea in J/mol, ln A) from rates at two or more temperatures, all positive.
