@@ -13,6 +13,13 @@ use crate::charts::{render_line_chart, LineChart, RefLine, Series, SeriesStyle};
 use crate::runs::{load_context, RunContext};
 use crate::{AppError, AppState};
 
+/// The run's series, or 404 when it has no recorded data yet.
+fn recorded(ctx: &RunContext) -> Result<&RunSeries, AppError> {
+    ctx.series
+        .as_ref()
+        .ok_or_else(|| AppError::NotFound(format!("Recorded data of run {}", ctx.run.id)))
+}
+
 fn points(time_h: &[f64], v: &[f64]) -> Vec<(f64, f64)> {
     time_h.iter().copied().zip(v.iter().copied()).collect()
 }
@@ -69,9 +76,7 @@ pub async fn temperatures(
     Path(id): Path<i64>,
 ) -> Result<Response, AppError> {
     let ctx = load_context(&state.store, id, state.config.margin_c).await?;
-    let Some(series) = &ctx.series else {
-        return Err(AppError::NotFound(format!("Recorded data of run {id}")));
-    };
+    let series = recorded(&ctx)?;
     let t = &series.time_h;
     let mut lines = vec![Series {
         name: "shelf".into(),
@@ -155,9 +160,7 @@ pub async fn pressures(
     Path(id): Path<i64>,
 ) -> Result<Response, AppError> {
     let ctx = load_context(&state.store, id, state.config.margin_c).await?;
-    let Some(series) = &ctx.series else {
-        return Err(AppError::NotFound(format!("Recorded data of run {id}")));
-    };
+    let series = recorded(&ctx)?;
     let t = &series.time_h;
     let mut lines = Vec::new();
     if let Some(m) = &series.manometer_mtorr {

@@ -77,6 +77,13 @@ struct FormPage {
     needs_reason: bool,
 }
 
+fn choices(items: impl IntoIterator<Item = (i64, String)>) -> Vec<Choice> {
+    items
+        .into_iter()
+        .map(|(id, label)| Choice { id, label })
+        .collect()
+}
+
 async fn form_page(
     state: &AppState,
     run_id: Option<i64>,
@@ -94,39 +101,20 @@ async fn form_page(
         form,
         errors,
         map,
-        cycles: s
-            .list_cycles(false)
-            .await?
-            .into_iter()
-            .map(|c| Choice {
-                id: c.id,
-                label: c.name,
-            })
-            .collect(),
-        containers: s
-            .list_containers()
-            .await?
-            .into_iter()
-            .map(|c| Choice {
-                id: c.id,
-                label: c.name,
-            })
-            .collect(),
-        dryers: s
-            .list_dryers()
-            .await?
-            .into_iter()
-            .map(|d| Choice {
-                id: d.id,
-                label: d.name,
-            })
-            .collect(),
-        formulations: s
-            .formulation_codes()
-            .await?
-            .into_iter()
-            .map(|(id, code)| Choice { id, label: code })
-            .collect(),
+        cycles: choices(
+            s.list_cycles(false)
+                .await?
+                .into_iter()
+                .map(|c| (c.id, c.name)),
+        ),
+        containers: choices(
+            s.list_containers()
+                .await?
+                .into_iter()
+                .map(|c| (c.id, c.name)),
+        ),
+        dryers: choices(s.list_dryers().await?.into_iter().map(|d| (d.id, d.name))),
+        formulations: choices(s.formulation_codes().await?),
         kinds: RunKind::ALL,
         cakes: CakeAppearance::ALL,
         roles: roles(),
