@@ -16,8 +16,8 @@ pub use context::{load_context, load_reading, PredictionSummary, RunContext};
 
 use glasspoint_science::runs::{
     comparative_pressure, excursions, find_phases, probe_arrivals, secondary_kinetics, Excursion,
-    MoistureSample, Phase, PhaseKind, PressureEndPoint, ProbeArrival, ProbePosition, RpResult,
-    RunSeries, SecondaryInput, SecondaryKinetics,
+    MoistureSample, Phase, PhaseKind, PressureEndPoint, ProbeArrival, ProbePosition, RunSeries,
+    SecondaryInput, SecondaryKinetics,
 };
 
 use crate::domain::runs::StoredSeries;
@@ -235,11 +235,6 @@ pub fn secondary(
         at_shelf_temp_c: at_shelf_c,
     };
     Some(secondary_kinetics(&input).map_err(|e| format!("{}: {}", e.field, e.message)))
-}
-
-/// A reading that failed, as words for the page.
-pub fn rp_words(r: &Result<RpResult, String>) -> Option<&str> {
-    r.as_ref().err().map(String::as_str)
 }
 
 /// Storage temperature the moisture target is worked out for, °C (room temperature;

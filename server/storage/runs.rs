@@ -496,14 +496,6 @@ impl Store {
         }
     }
 
-    /// How many runs are stored (for checks that a refused upload stored nothing).
-    pub async fn count_runs(&self) -> Result<i64, AppError> {
-        let (n,): (i64,) = on_pool!(self, pool => {
-            sqlx::query_as("SELECT COUNT(*) FROM runs").fetch_one(pool).await?
-        });
-        Ok(n)
-    }
-
     /// A dryer's remembered export columns: (header, role code), in file order.
     pub async fn dryer_column_map(&self, dryer_id: i64) -> Result<Vec<(String, String)>, AppError> {
         Ok(on_pool!(self, pool => {

@@ -65,10 +65,6 @@ impl StoredSeries {
             condenser_c: r.condenser_c.as_deref().map(column),
         }
     }
-
-    pub fn rows(&self) -> usize {
-        self.time_h.len()
-    }
 }
 
 /// What reading an export gave: the data to store with the column map applied, or the
